@@ -1,0 +1,185 @@
+"""Run one design through the whole pipeline.
+
+The stages are kept apart so that variants can reuse work: the geometry
+solution depends only on conductors, soil and segment length; the surface
+field is computed per volt of GPR and scaled, because the model is linear in
+the fault current.
+"""
+
+from __future__ import annotations
+
+import logging
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .footprint import compute_footprint
+from .greens import ImageSet, uniform_images
+from .ieee80 import decrement_factor, grid_current_a
+from .model import Design, Notice, Soil
+from .safety import Assessment, Limits, assess, tolerable_limits
+from .segments import Segmentation, segment_conductors
+from .solver import Solution, solve
+from .surface import (
+    Raster,
+    StepResult,
+    TouchArea,
+    TouchResult,
+    auto_raster_spacing,
+    build_raster,
+    find_max_step,
+    find_max_touch,
+    surface_potential,
+)
+
+__all__ = ["FieldResult", "GeometryResult", "Results", "analyse", "solve_geometry", "soil_images", "surface_field"]
+
+log = logging.getLogger(__name__)
+
+
+def soil_images(soil: Soil) -> ImageSet:
+    """Point images of the soil model's Green's function."""
+    if soil.is_uniform:
+        return uniform_images(soil)
+    from .twolayer import two_layer_images
+
+    return two_layer_images(soil)
+
+
+@dataclass(frozen=True)
+class GeometryResult:
+    """Segmentation and method-of-moments solution (per volt of GPR)."""
+
+    segmentation: Segmentation
+    solution: Solution
+    seconds: dict[str, float]
+
+
+@dataclass(frozen=True)
+class FieldResult:
+    """Surface raster, touch and step maxima, all per volt of GPR."""
+
+    raster: Raster
+    touch: TouchResult
+    step: StepResult
+    notices: tuple[Notice, ...]
+    seconds: float
+
+
+def plan_lines(design: Design) -> np.ndarray:
+    """Plan end points of every non-vertical conductor, shape (k, 2, 2). [m]"""
+    lines = []
+    for c in design.all_conductors():
+        if c.kind == "rod":
+            continue
+        a, b = np.array(c.start[:2]), np.array(c.end[:2])
+        if np.linalg.norm(b - a) > 0:
+            lines.append([a, b])
+    return np.array(lines, dtype=float).reshape(-1, 2, 2)
+
+
+def solve_geometry(design: Design) -> GeometryResult:
+    """Segment the conductors and solve for the leakage currents."""
+    t0 = time.perf_counter()
+    interface = design.soil.thickness_m if not design.soil.is_uniform else None
+    seg = segment_conductors(design.all_conductors(), design.settings.segment_length_m, interface_depth_m=interface)
+    t1 = time.perf_counter()
+    log.info("%d conductors split into %d segments", len(seg.conductors), len(seg.segments))
+    images = soil_images(design.soil)
+    sol = solve(seg.segments, images)
+    t2 = time.perf_counter()
+    log.info("grid resistance %.4g ohm", sol.resistance_ohm)
+    return GeometryResult(seg, sol, {"segmentation": t1 - t0, "solve": t2 - t1})
+
+
+def surface_field(design: Design, geometry: GeometryResult) -> FieldResult:
+    """Surface potential raster and touch/step maxima per volt of GPR."""
+    t0 = time.perf_counter()
+    sol = geometry.solution
+    lines = plan_lines(design)
+    seg = sol.segments
+    pts = np.concatenate([seg.a[:, :2], seg.b[:, :2]])
+    extent = float(np.max(pts.max(axis=0) - pts.min(axis=0)))
+    spacing = design.settings.raster_spacing_m or auto_raster_spacing(extent)
+    footprint = compute_footprint(lines)
+    reach = np.concatenate([seg.a[:, None, :2], seg.b[:, None, :2]], axis=1)
+    area = TouchArea(footprint, reach)
+    notices = []
+    if footprint.empty:
+        notices.append(
+            Notice(
+                "no-enclosed-mesh",
+                "The layout encloses no mesh, so touch voltage is "
+                "assessed within 1 m of the conductors and rods (reach distance, common practice).",
+                "note",
+            )
+        )
+    raster = build_raster(sol, 1.0, area, spacing, design.settings.margin_m)
+
+    def potential(xy: np.ndarray) -> np.ndarray:
+        return surface_potential(xy, sol, 1.0)
+
+    log.info("searching for the largest touch and step voltages")
+    touch = find_max_touch(raster, 1.0, potential)
+    step = find_max_step(raster, potential)
+    return FieldResult(raster, touch, step, tuple(notices), time.perf_counter() - t0)
+
+
+@dataclass(frozen=True)
+class Results:
+    """Everything computed for one design."""
+
+    design: Design
+    geometry: GeometryResult
+    field: FieldResult
+    decrement_factor: float
+    grid_current_a: float
+    gpr_v: float
+    limits: Limits
+    assessment: Assessment
+    notices: tuple[Notice, ...] = field(default=())
+
+    @property
+    def resistance_ohm(self) -> float:
+        """Grid resistance. [ohm]"""
+        return self.geometry.solution.resistance_ohm
+
+    @property
+    def max_touch_v(self) -> float:
+        """Largest touch voltage. [V]"""
+        return self.field.touch.voltage_v * self.gpr_v
+
+    @property
+    def max_step_v(self) -> float:
+        """Largest step voltage. [V]"""
+        return self.field.step.voltage_v * self.gpr_v
+
+
+def evaluate(design: Design, geometry: GeometryResult, field_result: FieldResult) -> Results:
+    """Apply the fault and safety data of ``design`` to a solved geometry."""
+    f = design.fault
+    df = decrement_factor(f.x_over_r, f.fault_duration_s, f.frequency_hz)
+    ig = grid_current_a(f.fault_current_a, f.split_factor, df)
+    gpr = ig * geometry.solution.resistance_ohm
+    limits = tolerable_limits(design.soil, design.surface_layer, f)
+    result_assessment = assess(limits, field_result.touch.voltage_v * gpr, field_result.step.voltage_v * gpr)
+    notices = design.notices + geometry.segmentation.notices + geometry.solution.notices + field_result.notices
+    return Results(design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices)
+
+
+def analyse(design: Design) -> Results:
+    """Run the whole pipeline on one design.
+
+    Parameters
+    ----------
+    design : Design
+        Validated design.
+
+    Returns
+    -------
+    Results
+    """
+    geometry = solve_geometry(design)
+    field_result = surface_field(design, geometry)
+    return evaluate(design, geometry, field_result)

@@ -1,0 +1,39 @@
+"""Short form of CAUTIONS.md, shown by the command line and in the report."""
+
+from __future__ import annotations
+
+__all__ = ["CAUTIONS", "DRAFT_MARK"]
+
+#: Marking printed on every report page.
+DRAFT_MARK = "DRAFT - for review by a licensed professional engineer - not for construction"
+
+#: (heading, text) pairs; every heading is a heading of CAUTIONS.md.
+CAUTIONS: tuple[tuple[str, str], ...] = (
+    (
+        "Draft for review",
+        "Results are a design aid and a draft. A licensed professional engineer must review, "
+        "check and stamp the design before it is built or relied on.",
+    ),
+    (
+        "Standards and local codes govern",
+        "IEEE Std 80 and the standards, codes and utility rules that apply where the substation "
+        "is built take precedence over this program.",
+    ),
+    (
+        "Model assumptions",
+        "All conductors are bonded and at one potential (no conductor impedance); power "
+        "frequency only (no lightning or switching surges); soil idealised as uniform or two "
+        "horizontal layers; no transferred potentials through fences, pipes, rails, cable "
+        "sheaths or neutrals; no other buried metal nearby.",
+    ),
+    (
+        "Input data dominate",
+        "Soil resistivity, fault current, split factor and clearing time decide the answer. "
+        "Check them, and consider seasonal changes (frozen or dry soil).",
+    ),
+    (
+        "Where touch and step are checked",
+        "Touch voltage is checked over the grid footprint (the area enclosed by the outer "
+        "conductors); metal that can be touched outside it, such as a fence, needs its own check.",
+    ),
+)

@@ -1,0 +1,147 @@
+"""Command line: ``groundcalc template`` and ``groundcalc run``.
+
+Exit codes: 0 finished (the design may still fail the safety criteria; the
+output says so), 2 bad input or arguments, 1 internal error.
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import sys
+import textwrap
+from pathlib import Path
+
+from . import __version__
+from .errors import InputError
+
+__all__ = ["main"]
+
+log = logging.getLogger("groundcalc")
+
+
+def _setup_logging(quiet: bool) -> None:
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("groundcalc: %(message)s"))
+    root = logging.getLogger("groundcalc")
+    root.handlers[:] = [handler]
+    root.setLevel(logging.WARNING if quiet else logging.INFO)
+    root.propagate = False
+
+
+def _print_cautions() -> None:
+    from .cautions import CAUTIONS, DRAFT_MARK
+
+    print()
+    print(f"CAUTION: {DRAFT_MARK}.")
+    for head, text in CAUTIONS[1:]:
+        print(textwrap.fill(f"- {head}: {text}", width=100, subsequent_indent="  "))
+    print("  Full text: CAUTIONS.md")
+
+
+def _cmd_template(args: argparse.Namespace) -> int:
+    from .outputs import atomic_write, check_output
+    from .template import build_template
+
+    out = check_output(args.path, [], args.overwrite, "template")
+    if out.suffix.lower() != ".xlsx":
+        raise InputError(f"the template name '{out.name}' must end in .xlsx", fix="For example design.xlsx")
+    wb = build_template()
+    atomic_write(out, lambda tmp: wb.save(tmp))
+    print(f"wrote blank design workbook {out}")
+    print("fill it in, then run: groundcalc run " + str(out) + " --report draft.pdf --json results.json")
+    return 0
+
+
+def _summary_lines(results) -> list[str]:
+    a = results.assessment
+    lim = results.limits
+    t, s = results.field.touch, results.field.step
+    lines = [
+        f"Grid resistance      Rg   = {results.resistance_ohm:10.4g} ohm   "
+        f"({len(results.geometry.solution.segments)} segments)",
+        f"Decrement factor     Df   = {results.decrement_factor:10.4f}",
+        f"Grid current         I_G  = {results.grid_current_a:10.1f} A",
+        f"Ground potential rise GPR = {results.gpr_v:10.1f} V",
+        f"Max touch voltage         = {results.max_touch_v:10.1f} V   limit {lim.touch_v:8.1f} V   "
+        f"margin {a.touch_margin_pct:+6.1f} %   {'PASS' if a.touch_ok else 'FAIL'}   "
+        f"at ({t.location_xy[0]:.2f}, {t.location_xy[1]:.2f}) m",
+        f"Max step voltage          = {results.max_step_v:10.1f} V   limit {lim.step_v:8.1f} V   "
+        f"margin {a.step_margin_pct:+6.1f} %   {'PASS' if a.step_ok else 'FAIL'}   "
+        f"from ({s.start_xy[0]:.2f}, {s.start_xy[1]:.2f}) to ({s.end_xy[0]:.2f}, {s.end_xy[1]:.2f}) m",
+        f"Limits: {lim.basis}, Cs = {lim.cs:.4f}",
+        f"Overall: {'PASS' if a.passed else 'FAIL'} (governing: {a.governing})",
+    ]
+    return lines
+
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from .analysis import analyse
+    from .outputs import atomic_write, check_output, file_sha256, results_to_dict, write_json
+    from .workbook import read_design
+
+    inputs = [args.workbook]
+    report = check_output(args.report, inputs, args.overwrite, "report") if args.report else None
+    json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
+    if report and json_out and report.resolve() == json_out.resolve():
+        raise InputError("the report and JSON outputs are the same file", fix="Give them different names")
+    sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
+    log.info("reading %s", args.workbook)
+    design = read_design(args.workbook)
+    results = analyse(design)
+    for n in results.notices:
+        log.warning("%s: %s", n.level, n.message)
+    print("\n".join(_summary_lines(results)))
+    if json_out:
+        write_json(json_out, results_to_dict(results, args.workbook))
+        log.info("wrote %s", json_out)
+    if report:
+        from .report import write_report
+
+        log.info("writing report %s", report)
+        atomic_write(report, lambda tmp: write_report(results, tmp, Path(args.workbook).name, sha_before or ""))
+        log.info("wrote %s", report)
+    _print_cautions()
+    return 0
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="groundcalc",
+        description="Substation grounding grid analysis: grid resistance, GPR, touch and step "
+        "voltages against IEEE Std 80 limits. Results are a draft for a licensed engineer.",
+    )
+    p.add_argument("--version", action="version", version=f"groundcalc {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    t = sub.add_parser("template", help="write a blank design workbook")
+    t.add_argument("path", help="new workbook to write (.xlsx)")
+    t.add_argument("--overwrite", action="store_true", help="replace the file if it exists")
+    t.set_defaults(func=_cmd_template)
+
+    r = sub.add_parser("run", help="analyse a design workbook")
+    r.add_argument("workbook", help="design workbook (.xlsx)")
+    r.add_argument("--report", metavar="PDF", help="write the draft report to this PDF")
+    r.add_argument("--json", metavar="JSON", help="write machine-readable results to this file")
+    r.add_argument("--overwrite", action="store_true", help="replace existing output files")
+    r.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    r.set_defaults(func=_cmd_run)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``groundcalc`` command."""
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return 2
+    _setup_logging(getattr(args, "quiet", False))
+    try:
+        return int(args.func(args))
+    except InputError as exc:
+        print(f"groundcalc: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("groundcalc: interrupted", file=sys.stderr)
+        return 130

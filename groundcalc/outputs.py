@@ -1,0 +1,173 @@
+"""Writing results: machine-readable JSON and safe, atomic file output.
+
+Outputs are written to a temporary file in the target folder and renamed
+into place, so a crash never leaves a half-written file. An output path that
+is one of the inputs is refused, and an existing file is only replaced when
+the caller allows it.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import tempfile
+from collections.abc import Callable, Iterable
+from pathlib import Path
+from typing import Any
+
+from . import __version__
+from .analysis import Results
+from .cautions import CAUTIONS, DRAFT_MARK
+from .errors import InputError
+
+__all__ = ["atomic_write", "check_output", "file_sha256", "results_to_dict", "write_json"]
+
+
+def file_sha256(path: str | Path) -> str:
+    """SHA-256 of a file's bytes, as hex."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def check_output(path: str | Path, inputs: Iterable[str | Path], overwrite: bool, what: str) -> Path:
+    """Validate an output path before any work is done.
+
+    Raises
+    ------
+    InputError
+        When the output is one of the inputs, exists without ``overwrite``,
+        or its folder does not exist.
+    """
+    out = Path(path)
+    for inp in inputs:
+        ip = Path(inp)
+        if out.resolve() == ip.resolve() or (out.exists() and ip.exists() and os.path.samefile(out, ip)):
+            raise InputError(
+                f"the {what} output '{out}' is the input file '{ip}'",
+                fix="Choose another name for the output; inputs are never overwritten",
+            )
+    if out.exists() and out.is_dir():
+        raise InputError(f"the {what} output '{out}' is a folder", fix="Give a file name")
+    if out.exists() and not overwrite:
+        raise InputError(
+            f"the {what} output '{out}' already exists",
+            fix="Choose another name, or add --overwrite to replace it",
+        )
+    if not out.parent.exists():
+        raise InputError(
+            f"the folder '{out.parent}' for the {what} output does not exist",
+            fix="Create the folder first or choose another path",
+        )
+    return out
+
+
+def atomic_write(path: str | Path, writer: Callable[[Path], None]) -> None:
+    """Call ``writer(tmp_path)`` and rename the temporary file to ``path``."""
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+    os.close(fd)
+    try:
+        writer(Path(tmp))
+        os.replace(tmp, target)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def _xy(p: tuple[float, float]) -> dict[str, float]:
+    return {"x_m": round(p[0], 3), "y_m": round(p[1], 3)}
+
+
+def results_to_dict(results: Results, input_path: str | Path | None = None) -> dict[str, Any]:
+    """Results as a JSON-ready dictionary (SI units, keys carry units)."""
+    d = results.design
+    a = results.assessment
+    sol = results.geometry.solution
+    seg = sol.segments
+    touch = results.field.touch
+    step = results.field.step
+    out: dict[str, Any] = {
+        "groundcalc_version": __version__,
+        "status": DRAFT_MARK,
+        "input_file": str(input_path) if input_path else d.source_name,
+        "input_sha256": file_sha256(input_path) if input_path else None,
+        "project": {
+            "project": d.project.project,
+            "site": d.project.site,
+            "prepared_by": d.project.prepared_by,
+            "revision": d.project.revision,
+        },
+        "soil": {
+            "model": d.soil.model,
+            "upper_resistivity_ohm_m": d.soil.rho1_ohm_m,
+            "upper_thickness_m": d.soil.thickness_m,
+            "lower_resistivity_ohm_m": d.soil.rho2_ohm_m,
+            "reflection_coefficient": d.soil.reflection_k,
+            "image_terms": sol.images.terms,
+            "green_function": sol.images.description,
+        },
+        "surface_layer": None
+        if d.surface_layer is None
+        else {
+            "resistivity_ohm_m": d.surface_layer.rho_ohm_m,
+            "thickness_m": d.surface_layer.thickness_m,
+        },
+        "fault": {
+            "fault_current_3i0_a": d.fault.fault_current_a,
+            "split_factor": d.fault.split_factor,
+            "x_over_r": d.fault.x_over_r,
+            "fault_duration_s": d.fault.fault_duration_s,
+            "shock_duration_s": d.fault.shock_duration_s,
+            "body_weight_kg": d.fault.body_weight_kg,
+            "frequency_hz": d.fault.frequency_hz,
+        },
+        "grid_resistance_ohm": results.resistance_ohm,
+        "decrement_factor": results.decrement_factor,
+        "grid_current_a": results.grid_current_a,
+        "gpr_v": results.gpr_v,
+        "max_touch_v": results.max_touch_v,
+        "max_step_v": results.max_step_v,
+        "surface_layer_factor_cs": results.limits.cs,
+        "tolerable_touch_v": results.limits.touch_v,
+        "tolerable_step_v": results.limits.step_v,
+        "limits_basis": results.limits.basis,
+        "touch_ok": a.touch_ok,
+        "step_ok": a.step_ok,
+        "passed": a.passed,
+        "touch_margin_pct": a.touch_margin_pct,
+        "step_margin_pct": a.step_margin_pct,
+        "governing": a.governing,
+        "touch_location": _xy(touch.location_xy),
+        "step_location": {"start": _xy(step.start_xy), "end": _xy(step.end_xy)},
+        "segment_count": len(seg),
+        "conductor_count": len(results.geometry.segmentation.conductors),
+        "total_conductor_length_m": float(sum(c.length_m for c in d.all_conductors() if c.kind != "rod")),
+        "rod_count": len(d.rods),
+        "total_rod_length_m": float(sum(r.length_m for r in d.rods)),
+        "settings": {
+            "segment_length_m": d.settings.segment_length_m,
+            "raster_spacing_m": results.field.raster.spacing_m,
+            "margin_m": d.settings.margin_m,
+            "linear_solver": sol.method,
+        },
+        "warnings": [{"code": n.code, "level": n.level, "message": n.message} for n in results.notices],
+        "cautions": [f"{h}: {t}" for h, t in CAUTIONS],
+        "timings_s": {**results.geometry.seconds, "surface": results.field.seconds},
+    }
+    return out
+
+
+def write_json(path: str | Path, data: dict[str, Any]) -> None:
+    """Write ``data`` as indented JSON, atomically."""
+
+    def writer(tmp: Path) -> None:
+        with open(tmp, "w", encoding="utf-8") as fh:
+            json.dump(data, fh, indent=2, allow_nan=False)
+            fh.write("\n")
+
+    atomic_write(path, writer)

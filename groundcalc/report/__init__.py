@@ -1,0 +1,5 @@
+"""PDF report of a groundcalc analysis (reportlab)."""
+
+from .pdf import write_report
+
+__all__ = ["write_report"]

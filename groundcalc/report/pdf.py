@@ -1,0 +1,262 @@
+"""Build the PDF draft report with reportlab's platypus."""
+
+from __future__ import annotations
+
+import datetime as _dt
+from pathlib import Path
+
+from reportlab.lib import colors
+from reportlab.lib.enums import TA_CENTER
+from reportlab.lib.pagesizes import A4
+from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
+from reportlab.lib.units import mm
+from reportlab.pdfgen import canvas as _canvas
+from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
+
+from .. import __version__
+from ..analysis import Results
+from ..cautions import CAUTIONS, DRAFT_MARK
+
+__all__ = ["write_report"]
+
+_STYLES = getSampleStyleSheet()
+BODY = ParagraphStyle("body", parent=_STYLES["BodyText"], fontSize=9.5, leading=12)
+SMALL = ParagraphStyle("small", parent=BODY, fontSize=8, leading=10)
+H1 = ParagraphStyle("h1", parent=_STYLES["Heading1"], fontSize=16, spaceAfter=6)
+H2 = ParagraphStyle("h2", parent=_STYLES["Heading2"], fontSize=12, spaceBefore=10, spaceAfter=4)
+VERDICT = ParagraphStyle("verdict", parent=BODY, fontSize=13, leading=16, alignment=TA_CENTER)
+
+PASS_COLOUR = colors.HexColor("#1b7837")
+FAIL_COLOUR = colors.HexColor("#b2182b")
+GRID_LINE = colors.HexColor("#9aa5b1")
+HEAD_FILL = colors.HexColor("#e4e9ef")
+
+
+class _NumberedCanvas(_canvas.Canvas):
+    """Canvas that prints the draft marking and 'page N of M' on every page."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._saved: list[dict] = []
+
+    def showPage(self):  # noqa: N802 (reportlab API)
+        self._saved.append(dict(self.__dict__))
+        self._startPage()
+
+    def save(self):
+        total = len(self._saved)
+        for state in self._saved:
+            self.__dict__.update(state)
+            self._decorate(total)
+            super().showPage()
+        super().save()
+
+    def _decorate(self, total: int) -> None:
+        w, h = self._pagesize
+        self.saveState()
+        self.setFillColor(FAIL_COLOUR)
+        self.setFont("Helvetica-Bold", 8.5)
+        self.drawCentredString(w / 2, h - 12 * mm, DRAFT_MARK)
+        self.setFillColor(colors.black)
+        self.setFont("Helvetica", 8)
+        self.drawString(18 * mm, 10 * mm, f"groundcalc {__version__}")
+        self.drawRightString(w - 18 * mm, 10 * mm, f"Page {self._pageNumber} of {total}")
+        self.restoreState()
+
+
+def _table(rows, col_widths, header=True, align_right_from=1):
+    t = Table(rows, colWidths=col_widths, hAlign="LEFT")
+    style = [
+        ("FONT", (0, 0), (-1, -1), "Helvetica", 9),
+        ("GRID", (0, 0), (-1, -1), 0.4, GRID_LINE),
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("ALIGN", (align_right_from, 0), (-1, -1), "RIGHT"),
+    ]
+    if header:
+        style += [("FONT", (0, 0), (-1, 0), "Helvetica-Bold", 9), ("BACKGROUND", (0, 0), (-1, 0), HEAD_FILL)]
+    t.setStyle(TableStyle(style))
+    return t
+
+
+def _fmt(x: float, digits: int = 4) -> str:
+    return f"{x:.{digits}g}" if abs(x) < 10**digits else f"{x:,.0f}"
+
+
+def _verdict(ok: bool) -> str:
+    colour = PASS_COLOUR.hexval()[2:] if ok else FAIL_COLOUR.hexval()[2:]
+    return f'<font color="#{colour}"><b>{"PASS" if ok else "FAIL"}</b></font>'
+
+
+def title_block(results: Results, input_name: str, sha256: str) -> list:
+    """Title block flowables."""
+    p = results.design.project
+    rows = [
+        ["Project", p.project or "-"],
+        ["Site", p.site or "-"],
+        ["Prepared by", p.prepared_by or "-"],
+        ["Revision", p.revision or "-"],
+        ["Date", _dt.date.today().isoformat()],
+        ["Input file", input_name],
+        ["Input SHA-256", Paragraph(f'<font size="7.5">{sha256}</font>', SMALL)],
+        ["Program", f"groundcalc {__version__}"],
+    ]
+    return [
+        Paragraph("Substation grounding study - draft results", H1),
+        _table(rows, [35 * mm, 135 * mm], header=False, align_right_from=2),
+    ]
+
+
+def summary(results: Results) -> list:
+    """Pass/fail summary flowables."""
+    a = results.assessment
+    lim = results.limits
+    verdict = (
+        f"Overall: {_verdict(a.passed)} &nbsp; (governing criterion: {a.governing}, margin "
+        f"{min(a.touch_margin_pct, a.step_margin_pct):+.1f} %)"
+    )
+    rows = [
+        ["Criterion", "Computed [V]", "Tolerable [V]", "Margin [%]", "Result"],
+        [
+            "Touch voltage",
+            _fmt(results.max_touch_v),
+            _fmt(lim.touch_v),
+            f"{a.touch_margin_pct:+.1f}",
+            Paragraph(_verdict(a.touch_ok), BODY),
+        ],
+        [
+            "Step voltage",
+            _fmt(results.max_step_v),
+            _fmt(lim.step_v),
+            f"{a.step_margin_pct:+.1f}",
+            Paragraph(_verdict(a.step_ok), BODY),
+        ],
+    ]
+    key = [
+        ["Quantity", "Value"],
+        ["Grid resistance Rg", f"{results.resistance_ohm:.4g} ohm"],
+        ["Grid current I_G = Df Sf 3I0", f"{results.grid_current_a:,.0f} A"],
+        ["Ground potential rise GPR", f"{results.gpr_v:,.0f} V"],
+        ["Worst touch point (x, y)", "({:.2f}, {:.2f}) m".format(*results.field.touch.location_xy)],
+        [
+            "Worst step (from -> to)",
+            "({:.2f}, {:.2f}) -> ({:.2f}, {:.2f}) m".format(*results.field.step.start_xy, *results.field.step.end_xy),
+        ],
+    ]
+    advice = (
+        "The design meets the IEEE Std 80 touch and step criteria for the stated data."
+        if a.passed
+        else "The design does not meet the criteria. Options: more conductors or closer spacing "
+        "where the worst point lies, rods on the perimeter, a thicker or more resistive surface "
+        "layer, a deeper or larger grid, or a lower fault current or faster clearing."
+    )
+    return [
+        Paragraph("Summary", H2),
+        Paragraph(verdict, VERDICT),
+        Spacer(1, 4),
+        _table(rows, [40 * mm, 30 * mm, 30 * mm, 25 * mm, 25 * mm]),
+        Spacer(1, 6),
+        _table(key, [70 * mm, 80 * mm]),
+        Spacer(1, 4),
+        Paragraph(advice, BODY),
+    ]
+
+
+def inputs(results: Results) -> list:
+    """Input data flowables."""
+    d = results.design
+    s = d.soil
+    soil_rows = [["Soil model", s.model]]
+    soil_rows.append(["Upper resistivity", f"{s.rho1_ohm_m:g} ohm*m"])
+    if s.model == "two-layer":
+        soil_rows += [
+            ["Upper thickness H", f"{s.thickness_m:g} m"],
+            ["Lower resistivity", f"{s.rho2_ohm_m:g} ohm*m"],
+            ["Reflection coefficient K", f"{s.reflection_k:+.3f}"],
+        ]
+    if d.surface_layer:
+        soil_rows += [
+            ["Surface layer", f"{d.surface_layer.rho_ohm_m:g} ohm*m, {d.surface_layer.thickness_m:g} m thick"],
+            ["Derating factor Cs (IEEE Std 80 Eq. 27)", f"{results.limits.cs:.4f}"],
+        ]
+    else:
+        soil_rows.append(["Surface layer", "none (Cs = 1)"])
+    f = d.fault
+    fault_rows = [
+        ["Fault current 3I0", f"{f.fault_current_a:,.0f} A"],
+        ["Split factor Sf", f"{f.split_factor:g}"],
+        ["X/R, frequency", f"{f.x_over_r:g}, {f.frequency_hz:g} Hz"],
+        ["Fault duration tf", f"{f.fault_duration_s:g} s"],
+        ["Decrement factor Df (Eq. 79)", f"{results.decrement_factor:.4f}"],
+        ["Shock duration ts, body weight", f"{f.shock_duration_s:g} s, {f.body_weight_kg:.0f} kg"],
+    ]
+    seg = results.geometry.solution.segments
+    conductors = [c for c in d.all_conductors() if c.kind != "rod"]
+    geo_rows = [
+        ["Horizontal conductors", f"{len(conductors)}, total {sum(c.length_m for c in conductors):,.1f} m"],
+        ["Rods", f"{len(d.rods)}, total {sum(r.length_m for r in d.rods):,.1f} m"],
+        ["Segments (target length)", f"{len(seg)} ({d.settings.segment_length_m:g} m)"],
+        ["Surface raster spacing, margin", f"{results.field.raster.spacing_m:g} m, {d.settings.margin_m:g} m"],
+        ["Soil Green's function", results.geometry.solution.images.description],
+        ["Linear solver", results.geometry.solution.method],
+    ]
+    w = [70 * mm, 100 * mm]
+    return [
+        Paragraph("Inputs", H2),
+        _table([["Soil", ""]] + soil_rows, w, align_right_from=2),
+        Spacer(1, 4),
+        _table([["Fault", ""]] + fault_rows, w, align_right_from=2),
+        Spacer(1, 4),
+        _table([["Geometry and numerics", ""]] + geo_rows, w, align_right_from=2),
+    ]
+
+
+def notices(results: Results) -> list:
+    """Warnings and notes flowables."""
+    if not results.notices:
+        return []
+    items = [Paragraph("Warnings and notes", H2)]
+    for n in results.notices:
+        items.append(Paragraph(f"<b>{n.level.capitalize()}:</b> {n.message}", BODY))
+    return items
+
+
+def cautions() -> list:
+    """Cautions flowables."""
+    items = [Paragraph("Cautions", H2)]
+    for head, text in CAUTIONS:
+        items.append(Paragraph(f"<b>{head}.</b> {text}", BODY))
+    return [KeepTogether(items)]
+
+
+def write_report(results: Results, path: str | Path, input_name: str, sha256: str) -> None:
+    """Write the PDF report.
+
+    Parameters
+    ----------
+    results : Results
+        Analysis results.
+    path : str or pathlib.Path
+        Output PDF path (the caller handles atomic replacement).
+    input_name : str
+        Input workbook name for the title block.
+    sha256 : str
+        SHA-256 of the input workbook.
+    """
+    doc = SimpleDocTemplate(
+        str(path),
+        pagesize=A4,
+        leftMargin=18 * mm,
+        rightMargin=18 * mm,
+        topMargin=18 * mm,
+        bottomMargin=16 * mm,
+        title="groundcalc draft grounding study",
+        author=results.design.project.prepared_by or "groundcalc",
+        subject=DRAFT_MARK,
+    )
+    story = []
+    story += title_block(results, input_name, sha256)
+    story += summary(results)
+    story += inputs(results)
+    story += notices(results)
+    story += cautions()
+    doc.build(story, canvasmaker=_NumberedCanvas)

@@ -1,0 +1,332 @@
+"""The workbook format: sheets, fields, units and their meaning.
+
+This is a public contract: designers and outside scripts rely on these
+names. The template writer, the reader and the README all come from here.
+Names match case-insensitively with extra spaces ignored; the unit written in
+brackets in a header decides the conversion.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+__all__ = ["Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "sheet_spec"]
+
+
+@dataclass(frozen=True)
+class Field:
+    """One quantity (key-value sheets) or column (table sheets).
+
+    Attributes
+    ----------
+    name : str
+        Name without unit, as written in the template.
+    kind : str
+        Unit kind (see :data:`groundcalc.units.UNITS`), or ``"number"``,
+        ``"count"``, ``"text"``, ``"choice"``.
+    required : bool
+        Whether a value must be given.
+    rule : str
+        ``"positive"``, ``"nonnegative"``, ``"fraction"`` (0 < x <= 1) or ``""``.
+    help : str
+        Meaning in words of the trade.
+    typical : str
+        Typical values or range.
+    choices : tuple of str
+        Allowed words for ``"choice"`` fields.
+    unit : str
+        Unit written in the template header (default: the kind's SI unit).
+    """
+
+    name: str
+    kind: str
+    required: bool = False
+    rule: str = ""
+    help: str = ""
+    typical: str = ""
+    choices: tuple[str, ...] = ()
+    unit: str = ""
+
+    @property
+    def key(self) -> str:
+        """Normalised name used for matching."""
+        return " ".join(self.name.split()).lower()
+
+    def header(self) -> str:
+        """Header text as written in the template, with its default unit."""
+        from .units import DEFAULT_UNIT
+
+        unit = self.unit or DEFAULT_UNIT.get(self.kind)
+        return f"{self.name} [{unit}]" if unit else self.name
+
+
+@dataclass(frozen=True)
+class SheetSpec:
+    """A worksheet: key-value (``Quantity | Value``) or a table."""
+
+    name: str
+    layout: str  # "keyvalue" or "table"
+    fields: tuple[Field, ...]
+    purpose: str
+    key_header: str = "Quantity"
+    required: bool = False
+
+    def field(self, key: str) -> Field | None:
+        """Field whose normalised name is ``key``."""
+        for f in self.fields:
+            if f.key == key:
+                return f
+        return None
+
+
+_LEN = "length"
+
+PROJECT = SheetSpec(
+    "Project",
+    "keyvalue",
+    (
+        Field("Project", "text", help="Project name shown on the report title block."),
+        Field("Site", "text", help="Substation or site name."),
+        Field("Prepared by", "text", help="Designer's name or initials."),
+        Field("Revision", "text", help="Drawing or study revision, e.g. A, B, 0, 1."),
+    ),
+    "Title-block information for the report. All optional.",
+    key_header="Field",
+)
+
+SOIL = SheetSpec(
+    "Soil",
+    "keyvalue",
+    (
+        Field(
+            "Model",
+            "choice",
+            True,
+            help="Soil model: uniform, or two-layer (an upper layer of "
+            "given thickness over a lower layer of infinite depth).",
+            typical="uniform",
+            choices=("uniform", "two-layer"),
+        ),
+        Field(
+            "Upper resistivity",
+            "resistivity",
+            True,
+            "positive",
+            "Resistivity of the soil (uniform model) or of the upper layer.",
+            "10 to 3000 ohm*m; wet clay ~20, sand and gravel 100-1000, rock > 1000",
+        ),
+        Field(
+            "Upper thickness",
+            _LEN,
+            False,
+            "positive",
+            "Thickness H of the upper layer (two-layer model only).",
+            "0.5 to 30 m",
+        ),
+        Field(
+            "Lower resistivity",
+            "resistivity",
+            False,
+            "positive",
+            "Resistivity of the lower layer (two-layer model only).",
+            "10 to 10000 ohm*m",
+        ),
+        Field(
+            "Surface layer resistivity",
+            "resistivity",
+            False,
+            "positive",
+            "Resistivity of a crushed-rock or asphalt surface layer, wet. Leave both surface "
+            "layer rows blank when there is none.",
+            "1000 to 5000 ohm*m (crushed rock, wet)",
+        ),
+        Field(
+            "Surface layer thickness", _LEN, False, "positive", "Thickness h_s of the surface layer.", "0.08 to 0.15 m"
+        ),
+    ),
+    "Soil resistivity model and the optional high-resistivity surface layer.",
+    required=True,
+)
+
+FAULT = SheetSpec(
+    "Fault",
+    "keyvalue",
+    (
+        Field(
+            "Fault current",
+            "current",
+            True,
+            "positive",
+            "Symmetrical rms ground-fault current 3I0 at the substation for the worst fault.",
+            "1 to 60 kA",
+        ),
+        Field(
+            "Split factor",
+            "number",
+            False,
+            "fraction",
+            "Current division factor Sf: the share of 3I0 that flows between this grid and "
+            "remote earth (the rest returns through shield wires and neutrals). Blank = 1.0, "
+            "the conservative choice.",
+            "0.2 to 1.0",
+        ),
+        Field(
+            "X/R ratio",
+            "number",
+            True,
+            "nonnegative",
+            "X/R ratio of the system at the fault location; sets the decrement factor Df for the DC offset.",
+            "5 to 40",
+        ),
+        Field(
+            "Fault duration",
+            "time",
+            True,
+            "positive",
+            "Fault duration tf (clearing time) used for the decrement factor.",
+            "0.05 to 1 s",
+        ),
+        Field(
+            "Shock duration",
+            "time",
+            False,
+            "positive",
+            "Shock duration ts for the tolerable body current. Blank = the fault duration.",
+            "0.05 to 1 s (0.03 to 3 s is the validity range)",
+        ),
+        Field(
+            "Body weight",
+            "mass",
+            False,
+            "positive",
+            "Body weight for the tolerable voltages: 50 or 70. Blank = 50 kg, the conservative choice.",
+            "50 or 70 kg",
+        ),
+        Field("Frequency", "frequency", False, "positive", "System frequency. Blank = 60 Hz.", "50 or 60 Hz"),
+    ),
+    "Fault current and the exposure data for the tolerable voltages (IEEE Std 80).",
+    required=True,
+)
+
+CONDUCTORS = SheetSpec(
+    "Conductors",
+    "table",
+    (
+        Field("Label", "text", help="Name shown in outputs. Blank = C and the row number."),
+        Field("X1", _LEN, True, help="Plan x of the first end.", typical="site coordinates"),
+        Field("Y1", _LEN, True, help="Plan y of the first end."),
+        Field("Depth1", _LEN, True, "positive", "Burial depth of the first end below grade.", "0.3 to 1.5 m"),
+        Field("X2", _LEN, True, help="Plan x of the second end."),
+        Field("Y2", _LEN, True, help="Plan y of the second end."),
+        Field("Depth2", _LEN, True, "positive", "Burial depth of the second end."),
+        Field(
+            "Diameter",
+            _LEN,
+            True,
+            "positive",
+            "Bare conductor diameter.",
+            "8 to 20 mm (e.g. 120 mm2 stranded copper is about 14 mm)",
+            unit="mm",
+        ),
+    ),
+    "One row per straight buried bare conductor. Conductors that cross or touch are joined.",
+)
+
+RODS = SheetSpec(
+    "Rods",
+    "table",
+    (
+        Field("Label", "text", help="Name shown in outputs. Blank = R and the row number."),
+        Field("X", _LEN, True, help="Plan x of the rod."),
+        Field("Y", _LEN, True, help="Plan y of the rod."),
+        Field(
+            "Top depth",
+            _LEN,
+            True,
+            "nonnegative",
+            "Depth of the rod top below grade (usually the grid depth so that it touches the grid).",
+            "0 to 1 m",
+        ),
+        Field("Length", _LEN, True, "positive", "Driven length of the rod.", "2.4 to 30 m"),
+        Field("Diameter", _LEN, True, "positive", "Rod diameter.", "12 to 25 mm", unit="mm"),
+    ),
+    "One row per driven vertical rod.",
+)
+
+GRIDS = SheetSpec(
+    "Grids",
+    "table",
+    (
+        Field("Label", "text", help="Name; the generated conductors are called Label-X1, Label-Y1, ..."),
+        Field("X0", _LEN, True, help="Plan x of the grid corner with the smallest x and y."),
+        Field("Y0", _LEN, True, help="Plan y of that corner."),
+        Field("Length X", _LEN, True, "positive", "Size of the grid along x.", "10 to 300 m"),
+        Field("Length Y", _LEN, True, "positive", "Size of the grid along y.", "10 to 300 m"),
+        Field(
+            "Conductors along X",
+            "count",
+            True,
+            "positive",
+            "Number of parallel conductors that run in the x direction (evenly spread over Length Y), at least 2.",
+            "2 to 40",
+        ),
+        Field(
+            "Conductors along Y",
+            "count",
+            True,
+            "positive",
+            "Number of parallel conductors that run in the y direction (evenly spread over Length X), at least 2.",
+            "2 to 40",
+        ),
+        Field("Depth", _LEN, True, "positive", "Burial depth of the grid.", "0.3 to 1.5 m"),
+        Field("Diameter", _LEN, True, "positive", "Conductor diameter.", "8 to 20 mm", unit="mm"),
+    ),
+    "Optional generator of rectangular grids with equal mesh spacing. Each row adds its grid lines to the conductors.",
+)
+
+SETTINGS = SheetSpec(
+    "Settings",
+    "keyvalue",
+    (
+        Field(
+            "Segment length",
+            _LEN,
+            False,
+            "positive",
+            "Longest segment the conductors are split into for the solution. Blank = 1 m. "
+            "Shorter is more accurate and slower.",
+            "0.5 to 2 m",
+        ),
+        Field(
+            "Raster spacing",
+            _LEN,
+            False,
+            "positive",
+            "Spacing of the surface points where potentials are evaluated. Blank = chosen from "
+            "the grid size (0.25 to 1 m); peaks are refined locally.",
+            "0.25 to 1 m",
+        ),
+        Field(
+            "Margin",
+            _LEN,
+            False,
+            "nonnegative",
+            "How far beyond the outermost conductors the surface is evaluated (for step "
+            "voltage outside the grid). Blank = 5 m.",
+            "3 to 20 m",
+        ),
+    ),
+    "Numerical settings. All optional.",
+)
+
+KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS)
+ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS)
+
+
+def sheet_spec(name: str) -> SheetSpec:
+    """Spec of the sheet called ``name`` (exact template spelling)."""
+    for s in ALL_SHEETS:
+        if s.name == name:
+            return s
+    raise KeyError(name)

@@ -1,0 +1,659 @@
+"""Read a design workbook (.xlsx) into a validated :class:`~groundcalc.model.Design`.
+
+Every problem raises :class:`~groundcalc.errors.InputError` naming the sheet,
+row and column and saying what would be valid. The workbook is opened read
+only and never written.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+import re
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import openpyxl
+from openpyxl.utils import get_column_letter
+
+from .errors import InputError
+from .model import Conductor, Design, Fault, GridSpec, Notice, Project, Rod, Settings, Soil, SurfaceLayer
+from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, Field, SheetSpec
+from .units import UNITS, normalise_name, split_header, to_si
+
+__all__ = ["MAX_TABLE_ROWS", "open_workbook", "read_design", "read_keyvalue", "read_table"]
+
+#: Largest number of rows read from one table sheet.
+MAX_TABLE_ROWS = 20_000
+
+_DIMENSIONLESS_UNITS = {"", "-", "pu", "p.u.", "1"}
+
+
+@dataclass(frozen=True)
+class Cell:
+    """A value read from the workbook with its location."""
+
+    value: Any
+    sheet: str
+    row: int
+    column: str  # header text and column letter, e.g. "'X1 [m]' (B)"
+    unit: str | None
+    unit_row: int  # row holding the unit (header row of a table, own row of a key-value sheet)
+
+
+def open_workbook(path: str | Path):
+    """Open an .xlsx workbook read-only with cached formula values.
+
+    Raises
+    ------
+    InputError
+        When the file is missing, not an .xlsx workbook, or unreadable.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise InputError(f"file '{p}' does not exist", fix="Check the path and file name")
+    if p.is_dir():
+        raise InputError(f"'{p}' is a folder, not a workbook", fix="Give the path of an .xlsx file")
+    suffix = p.suffix.lower()
+    if suffix in (".xls", ".csv", ".ods", ".numbers"):
+        raise InputError(
+            f"'{p.name}' is a {suffix} file, not an .xlsx workbook",
+            fix="Open it in a spreadsheet program and save it as 'Excel Workbook (.xlsx)'",
+        )
+    if not zipfile.is_zipfile(p):
+        raise InputError(
+            f"'{p.name}' is not an .xlsx workbook (it is not a zip-based Office Open XML file; "
+            "it may be password-protected, damaged or another format)",
+            fix="Save it from a spreadsheet program as 'Excel Workbook (.xlsx)' without a password",
+        )
+    try:
+        return openpyxl.load_workbook(p, read_only=True, data_only=True)
+    except Exception as exc:  # openpyxl raises many types for damaged files
+        raise InputError(
+            f"'{p.name}' could not be read as an .xlsx workbook ({type(exc).__name__}: {exc})",
+            fix="Re-save it from a spreadsheet program as 'Excel Workbook (.xlsx)'",
+        ) from exc
+
+
+def _find_sheet(wb, name: str):
+    for actual in wb.sheetnames:
+        if normalise_name(actual) == normalise_name(name):
+            return wb[actual]
+    return None
+
+
+def _rows(ws, limit: int) -> list[tuple[int, tuple[Any, ...]]]:
+    out = []
+    for idx, row in enumerate(ws.iter_rows(values_only=True), start=1):
+        if idx > limit + 1:
+            raise InputError(
+                f"the sheet has more than {limit} rows",
+                sheet=ws.title,
+                row=idx,
+                fix=f"Split the design or remove unused rows; at most {limit} rows are read",
+            )
+        out.append((idx, tuple(row)))
+    return out
+
+
+def _is_blank(v: Any) -> bool:
+    return v is None or (isinstance(v, str) and not v.strip())
+
+
+def _column_label(header: str, col: int) -> str:
+    return f"'{header}' ({get_column_letter(col + 1)})"
+
+
+def read_keyvalue(wb, spec: SheetSpec) -> dict[str, Cell]:
+    """Read a ``Quantity | Value`` sheet.
+
+    Returns
+    -------
+    dict
+        Normalised field name -> :class:`Cell` (only rows with a value).
+    """
+    ws = _find_sheet(wb, spec.name)
+    if ws is None:
+        if spec.required:
+            raise InputError(
+                f"the workbook has no '{spec.name}' sheet",
+                fix=f"Add a sheet named '{spec.name}' (run 'groundcalc template NEW.xlsx' for the format)",
+            )
+        return {}
+    rows = _rows(ws, 1000)
+    if not rows:
+        if spec.required:
+            raise InputError("the sheet is empty", sheet=ws.title, fix=f"Fill in {spec.purpose}")
+        return {}
+    header = [normalise_name(h) if h is not None else "" for h in rows[0][1]]
+    key_names = {normalise_name(spec.key_header), "quantity", "field", "item"}
+    try:
+        kcol = next(i for i, h in enumerate(header) if h in key_names)
+        vcol = header.index("value")
+    except (StopIteration, ValueError):
+        raise InputError(
+            f"the first row must hold the headers '{spec.key_header}' and 'Value'",
+            sheet=ws.title,
+            row=1,
+            fix=f"Put '{spec.key_header}' in A1 and 'Value' in B1, as in the template",
+        ) from None
+    out: dict[str, Cell] = {}
+    for idx, row in rows[1:]:
+        key_raw = row[kcol] if kcol < len(row) else None
+        val = row[vcol] if vcol < len(row) else None
+        if _is_blank(key_raw):
+            if not _is_blank(val):
+                raise InputError(
+                    "a value has no quantity name beside it",
+                    sheet=ws.title,
+                    row=idx,
+                    column=_column_label(spec.key_header, kcol),
+                    fix="Write the quantity name in the first column or delete the value",
+                )
+            continue
+        name, unit = split_header(str(key_raw))
+        field = spec.field(name)
+        if field is None:
+            valid = ", ".join(f"'{f.header()}'" for f in spec.fields)
+            raise InputError(
+                f"'{key_raw}' is not a known quantity on this sheet",
+                sheet=ws.title,
+                row=idx,
+                column=_column_label(spec.key_header, kcol),
+                fix=f"Valid quantities are {valid}",
+            )
+        if field.key in out:
+            raise InputError(
+                f"'{field.name}' is given twice (first on row {out[field.key].row})",
+                sheet=ws.title,
+                row=idx,
+                column=_column_label(spec.key_header, kcol),
+                fix="Keep one row per quantity",
+            )
+        out[field.key] = Cell(val, ws.title, idx, _column_label("Value", vcol) + f" ('{key_raw}')", unit, idx)
+    return out
+
+
+def read_table(wb, spec: SheetSpec, limit: int = MAX_TABLE_ROWS) -> list[dict[str, Cell]]:
+    """Read a table sheet: headers in row 1, one item per row below.
+
+    Returns
+    -------
+    list of dict
+        One dict per non-empty row: normalised field name -> :class:`Cell`.
+    """
+    ws = _find_sheet(wb, spec.name)
+    if ws is None:
+        return []
+    rows = _rows(ws, limit)
+    if not rows:
+        return []
+    headers = rows[0][1]
+    colmap: dict[str, tuple[int, str, str | None]] = {}
+    for col, h in enumerate(headers):
+        if _is_blank(h):
+            continue
+        name, unit = split_header(str(h))
+        field = spec.field(name)
+        if field is None:
+            continue
+        if field.key in colmap:
+            raise InputError(
+                f"the column '{field.name}' appears twice",
+                sheet=ws.title,
+                row=1,
+                column=_column_label(str(h), col),
+                fix="Keep one column per quantity",
+            )
+        colmap[field.key] = (col, str(h), unit)
+    data_rows = [(i, r) for i, r in rows[1:] if any(not _is_blank(v) for v in r)]
+    if not data_rows:
+        return []
+    for f in spec.fields:
+        if f.required and f.key not in colmap:
+            raise InputError(
+                f"the required column '{f.header()}' is missing",
+                sheet=ws.title,
+                row=1,
+                fix="Headers in row 1 must be: " + ", ".join(f"'{g.header()}'" for g in spec.fields),
+            )
+    out = []
+    for idx, row in data_rows:
+        item = {}
+        for key, (col, header, unit) in colmap.items():
+            v = row[col] if col < len(row) else None
+            item[key] = Cell(v, ws.title, idx, _column_label(header, col), unit, 1)
+        out.append(item)
+    return out
+
+
+_DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")
+
+
+def _as_number(cell: Cell, field: Field) -> float:
+    v = cell.value
+    if isinstance(v, bool) or isinstance(v, (_dt.date, _dt.time, _dt.timedelta)):
+        raise InputError(
+            f"'{v}' is not a number",
+            sheet=cell.sheet,
+            row=cell.row,
+            column=cell.column,
+            fix="Enter a plain number (the cell may be formatted as a date or TRUE/FALSE)",
+        )
+    if isinstance(v, (int, float)):
+        x = float(v)
+    else:
+        text = str(v).strip().replace("\u00a0", "").replace(" ", "")
+        if text.startswith("#"):
+            raise InputError(
+                f"the cell holds the spreadsheet error '{text}'",
+                sheet=cell.sheet,
+                row=cell.row,
+                column=cell.column,
+                fix="Fix the formula in the spreadsheet program and save the file again",
+            )
+        if _DECIMAL_COMMA.match(text):
+            text = text.replace(",", ".")
+        try:
+            x = float(text)
+        except ValueError:
+            raise InputError(
+                f"'{v}' is not a number",
+                sheet=cell.sheet,
+                row=cell.row,
+                column=cell.column,
+                fix=f"Enter a number{_unit_hint(cell, field)}",
+            ) from None
+    if not math.isfinite(x):
+        raise InputError(
+            f"'{v}' is not a finite number",
+            sheet=cell.sheet,
+            row=cell.row,
+            column=cell.column,
+            fix=f"Enter a number{_unit_hint(cell, field)}",
+        )
+    return x
+
+
+def _unit_hint(cell: Cell, field: Field) -> str:
+    if field.kind in UNITS:
+        return f" in {cell.unit or field.header()}"
+    return ""
+
+
+def _factor(cell: Cell, field: Field) -> float:
+    if field.kind in UNITS:
+        if cell.unit is None:
+            accepted = ", ".join(UNITS[field.kind])
+            raise InputError(
+                f"'{field.name}' has no unit in brackets",
+                sheet=cell.sheet,
+                row=cell.unit_row,
+                column=cell.column,
+                fix=f"Write the unit after the name, e.g. '{field.header()}'; accepted units: {accepted}",
+            )
+        f = to_si(field.kind, cell.unit)
+        if f is None:
+            accepted = ", ".join(UNITS[field.kind])
+            raise InputError(
+                f"unit '{cell.unit}' is not supported for '{field.name}'",
+                sheet=cell.sheet,
+                row=cell.unit_row,
+                column=cell.column,
+                fix=f"Use one of: {accepted}",
+            )
+        return f
+    if cell.unit is not None and cell.unit.strip().lower() not in _DIMENSIONLESS_UNITS:
+        raise InputError(
+            f"'{field.name}' is a plain number and takes no unit, but '[{cell.unit}]' is given",
+            sheet=cell.sheet,
+            row=cell.unit_row,
+            column=cell.column,
+            fix=f"Write the header as '{field.header()}'",
+        )
+    return 1.0
+
+
+def _check_rule(x: float, cell: Cell, field: Field) -> None:
+    bad = None
+    if field.rule == "positive" and not x > 0:
+        bad = "must be greater than zero"
+    elif field.rule == "nonnegative" and not x >= 0:
+        bad = "must not be negative"
+    elif field.rule == "fraction" and not 0 < x <= 1:
+        bad = "must be greater than 0 and at most 1"
+    if bad is None:
+        return
+    extra = ""
+    if "depth" in field.key:
+        extra = " (depth is measured downward from grade; a negative depth would be above grade)"
+    raise InputError(
+        f"{field.name} {bad}, got {cell.value}{extra}",
+        sheet=cell.sheet,
+        row=cell.row,
+        column=cell.column,
+        fix=f"Typical values: {field.typical}" if field.typical else "Enter a valid value",
+    )
+
+
+def value(cells: dict[str, Cell], field: Field, default: Any = None) -> Any:
+    """Typed, SI-converted, rule-checked value of ``field`` (or ``default``)."""
+    cell = cells.get(field.key)
+    if cell is None or _is_blank(cell.value):
+        return default
+    if field.kind == "text":
+        return str(cell.value).strip()
+    if field.kind == "choice":
+        text = normalise_name(str(cell.value)).replace("_", "-")
+        text = {"two layer": "two-layer", "2-layer": "two-layer", "twolayer": "two-layer", "2 layer": "two-layer"}.get(
+            text, text
+        )
+        if text not in field.choices:
+            raise InputError(
+                f"'{cell.value}' is not a valid {field.name.lower()}",
+                sheet=cell.sheet,
+                row=cell.row,
+                column=cell.column,
+                fix="Valid values: " + ", ".join(field.choices),
+            )
+        return text
+    x = _as_number(cell, field)
+    factor = _factor(cell, field)
+    if field.kind == "count":
+        if x != int(x):
+            raise InputError(
+                f"{field.name} must be a whole number, got {cell.value}",
+                sheet=cell.sheet,
+                row=cell.row,
+                column=cell.column,
+                fix=f"Typical values: {field.typical}",
+            )
+        _check_rule(x, cell, field)
+        return int(x)
+    _check_rule(x, cell, field)
+    return x * factor
+
+
+def _required(cells: dict[str, Cell], spec: SheetSpec, field: Field, where_row: int | None = None) -> Any:
+    v = value(cells, field)
+    if v is None:
+        raise InputError(
+            f"'{field.header()}' is required but blank",
+            sheet=spec.name,
+            row=where_row if where_row is not None else _row_of(cells),
+            column=f"'{field.header()}'",
+            fix=f"{field.help} Typical: {field.typical}".strip() if field.typical else field.help,
+        )
+    return v
+
+
+def _row_of(cells: dict[str, Cell]) -> int | None:
+    for c in cells.values():
+        return c.row
+    return None
+
+
+def _missing(cells: dict[str, Cell], spec: SheetSpec, field: Field, why: str = "") -> InputError:
+    """Error for a required key-value quantity that is blank or absent."""
+    cell = cells.get(field.key)
+    fix = field.help + (f" Typical: {field.typical}." if field.typical else "")
+    if cell is None:
+        return InputError(
+            f"the quantity '{field.header()}' is missing{why}",
+            sheet=spec.name,
+            column=f"'{spec.key_header}'",
+            fix=f"Add a row '{field.header()}' with its value. {fix}",
+        )
+    return InputError(
+        f"'{field.header()}' is required{why} but its value is blank",
+        sheet=cell.sheet,
+        row=cell.row,
+        column=cell.column,
+        fix=fix,
+    )
+
+
+def _read_project(wb) -> Project:
+    cells = read_keyvalue(wb, PROJECT)
+    f = {x.key: x for x in PROJECT.fields}
+    return Project(
+        project=value(cells, f["project"], ""),
+        site=value(cells, f["site"], ""),
+        prepared_by=value(cells, f["prepared by"], ""),
+        revision=value(cells, f["revision"], ""),
+    )
+
+
+def _read_soil(wb, notices: list[Notice]) -> tuple[Soil, SurfaceLayer | None]:
+    cells = read_keyvalue(wb, SOIL)
+    f = {x.key: x for x in SOIL.fields}
+
+    def req(key: str, why: str) -> Any:
+        v = value(cells, f[key])
+        if v is None:
+            raise _missing(cells, SOIL, f[key], why)
+        return v
+
+    model = req("model", "")
+    rho1 = req("upper resistivity", "")
+    if model == "uniform":
+        for key in ("upper thickness", "lower resistivity"):
+            if value(cells, f[key]) is not None:
+                notices.append(
+                    Notice("ignored-input", f"Soil '{f[key].name}' is ignored because Model = uniform.", "note")
+                )
+        soil = Soil("uniform", rho1)
+    else:
+        soil = Soil(
+            "two-layer",
+            rho1,
+            req("upper thickness", " when Model = two-layer"),
+            req("lower resistivity", " when Model = two-layer"),
+        )
+    rho_s = value(cells, f["surface layer resistivity"])
+    h_s = value(cells, f["surface layer thickness"])
+    if (rho_s is None) != (h_s is None):
+        given, missing = ("surface layer resistivity", "surface layer thickness")[:: 1 if rho_s is not None else -1]
+        err = _missing(cells, SOIL, f[missing], f" because '{f[given].name}' is given")
+        err.fix = "Give both surface layer values, or leave both blank for no surface layer"
+        raise err
+    surface = SurfaceLayer(rho_s, h_s) if rho_s is not None else None
+    return soil, surface
+
+
+def _read_fault(wb, notices: list[Notice]) -> Fault:
+    cells = read_keyvalue(wb, FAULT)
+    f = {x.key: x for x in FAULT.fields}
+
+    def req(key: str) -> Any:
+        v = value(cells, f[key])
+        if v is None:
+            raise _missing(cells, FAULT, f[key])
+        return v
+
+    i0 = req("fault current")
+    xr = req("x/r ratio")
+    tf = req("fault duration")
+    sf = value(cells, f["split factor"])
+    if sf is None:
+        sf = 1.0
+        notices.append(Notice("default-used", "Split factor blank: taken as 1.0 (all of 3I0 into the grid).", "note"))
+    ts = value(cells, f["shock duration"])
+    if ts is None:
+        ts = tf
+        notices.append(Notice("default-used", "Shock duration blank: taken equal to the fault duration.", "note"))
+    weight = value(cells, f["body weight"])
+    if weight is None:
+        weight = 50.0
+        notices.append(Notice("default-used", "Body weight blank: 50 kg used (the more conservative limit).", "note"))
+    elif round(weight) not in (50, 70) or abs(weight - round(weight)) > 1e-9:
+        c = cells[f["body weight"].key]
+        raise InputError(
+            f"body weight must be 50 or 70 kg, got {c.value}",
+            sheet=c.sheet,
+            row=c.row,
+            column=c.column,
+            fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg; enter 50 or 70",
+        )
+    freq = value(cells, f["frequency"])
+    if freq is None:
+        freq = 60.0
+        notices.append(Notice("default-used", "Frequency blank: 60 Hz used.", "note"))
+    if not 0.03 <= ts <= 3.0:
+        notices.append(
+            Notice(
+                "outside-validity",
+                f"Shock duration {ts:g} s is outside 0.03 to 3 s, the range of the body-current "
+                "formula of IEEE Std 80 (clause 5.2); the tolerable voltages are extrapolated.",
+            )
+        )
+    return Fault(i0, sf, xr, tf, ts, float(round(weight)), freq)
+
+
+def _read_settings(wb) -> Settings:
+    cells = read_keyvalue(wb, SETTINGS)
+    f = {x.key: x for x in SETTINGS.fields}
+    seg = value(cells, f["segment length"], 1.0)
+    if seg > 5.0 + 1e-9:
+        c = cells[f["segment length"].key]
+        raise InputError(
+            f"segment length {seg:g} m is too long for an accurate solution",
+            sheet=c.sheet,
+            row=c.row,
+            column=c.column,
+            fix="Use at most 5 m (0.5 to 2 m is typical)",
+        )
+    spacing = value(cells, f["raster spacing"])
+    if spacing is not None and spacing < 0.05:
+        c = cells[f["raster spacing"].key]
+        raise InputError(
+            f"raster spacing {spacing:g} m is finer than needed and would be very slow",
+            sheet=c.sheet,
+            row=c.row,
+            column=c.column,
+            fix="Use 0.05 m or more (0.25 to 1 m is typical), or leave it blank",
+        )
+    return Settings(seg, spacing, value(cells, f["margin"], 5.0))
+
+
+def _field_map(spec: SheetSpec) -> dict[str, Field]:
+    return {x.key: x for x in spec.fields}
+
+
+def _read_conductors(wb) -> list[Conductor]:
+    f = _field_map(CONDUCTORS)
+    out = []
+    for cells in read_table(wb, CONDUCTORS):
+        row = _row_of(cells)
+        v = {k: _required(cells, CONDUCTORS, f[k], row) for k in f if f[k].required}
+        label = value(cells, f["label"]) or f"C{row}"
+        start = (v["x1"], v["y1"], v["depth1"])
+        end = (v["x2"], v["y2"], v["depth2"])
+        cond = Conductor(label, start, end, v["diameter"], "conductor", f"{CONDUCTORS.name} row {row}")
+        if cond.length_m < 1e-6:
+            raise InputError(
+                "the conductor has zero length (both ends are the same point)",
+                sheet=CONDUCTORS.name,
+                row=row,
+                column="'X2 [m]' to 'Depth2 [m]'",
+                fix="Give the second end a different position, or delete the row",
+            )
+        out.append(cond)
+    return out
+
+
+def _read_rods(wb) -> list[Rod]:
+    f = _field_map(RODS)
+    out = []
+    for cells in read_table(wb, RODS):
+        row = _row_of(cells)
+        v = {k: _required(cells, RODS, f[k], row) for k in f if f[k].required}
+        label = value(cells, f["label"]) or f"R{row}"
+        out.append(Rod(label, v["x"], v["y"], v["top depth"], v["length"], v["diameter"], f"{RODS.name} row {row}"))
+    return out
+
+
+def _read_grids(wb) -> list[GridSpec]:
+    f = _field_map(GRIDS)
+    out = []
+    for cells in read_table(wb, GRIDS):
+        row = _row_of(cells)
+        v = {k: _required(cells, GRIDS, f[k], row) for k in f if f[k].required}
+        for key in ("conductors along x", "conductors along y"):
+            if v[key] < 2:
+                c = cells[key]
+                raise InputError(
+                    f"{f[key].name} must be at least 2 (the two edges), got {c.value}",
+                    sheet=c.sheet,
+                    row=c.row,
+                    column=c.column,
+                    fix="Count every parallel conductor including both outer ones",
+                )
+        label = value(cells, f["label"]) or f"G{row}"
+        out.append(
+            GridSpec(
+                label,
+                v["x0"],
+                v["y0"],
+                v["length x"],
+                v["length y"],
+                v["conductors along x"],
+                v["conductors along y"],
+                v["depth"],
+                v["diameter"],
+                f"{GRIDS.name} row {row}",
+            )
+        )
+    return out
+
+
+def read_design(path: str | Path) -> Design:
+    """Read and validate a design workbook.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The .xlsx workbook.
+
+    Returns
+    -------
+    Design
+        The validated design in SI units.
+
+    Raises
+    ------
+    InputError
+        For any problem, naming sheet, row and column.
+    """
+    wb = open_workbook(path)
+    try:
+        notices: list[Notice] = []
+        project = _read_project(wb)
+        soil, surface = _read_soil(wb, notices)
+        fault = _read_fault(wb, notices)
+        settings = _read_settings(wb)
+        conductors = _read_conductors(wb)
+        rods = _read_rods(wb)
+        grids = _read_grids(wb)
+    finally:
+        wb.close()
+    if not (conductors or rods or grids):
+        raise InputError(
+            "the design has no conductors: the Conductors, Rods and Grids sheets are all empty or missing",
+            fix="Enter the grid on the 'Grids' sheet (rectangular grids) or the 'Conductors' "
+            "sheet, and rods on the 'Rods' sheet",
+        )
+    return Design(
+        project=project,
+        soil=soil,
+        surface_layer=surface,
+        fault=fault,
+        conductors=tuple(conductors),
+        rods=tuple(rods),
+        grids=tuple(grids),
+        settings=settings,
+        notices=tuple(notices),
+        source_name=Path(path).name,
+    )

@@ -1,0 +1,96 @@
+"""Command line: the example end to end, JSON contents, output safety, exit codes."""
+
+import hashlib
+import json
+import subprocess
+import sys
+
+import pytest
+
+from groundcalc.cli import main
+
+from .conftest import ROOT
+
+EXAMPLE = ROOT / "examples" / "kestrel-brook.xlsx"
+
+REQUIRED_KEYS = [
+    "grid_resistance_ohm",
+    "gpr_v",
+    "grid_current_a",
+    "decrement_factor",
+    "max_touch_v",
+    "max_step_v",
+    "tolerable_touch_v",
+    "tolerable_step_v",
+    "touch_ok",
+    "step_ok",
+    "segment_count",
+    "touch_location",
+    "step_location",
+]
+
+
+@pytest.fixture(scope="module")
+def example_run(tmp_path_factory):
+    out = tmp_path_factory.mktemp("run")
+    before = hashlib.sha256(EXAMPLE.read_bytes()).hexdigest()
+    code = main(["run", str(EXAMPLE), "--report", str(out / "r.pdf"), "--json", str(out / "r.json"), "--quiet"])
+    assert hashlib.sha256(EXAMPLE.read_bytes()).hexdigest() == before
+    return code, out, json.loads((out / "r.json").read_text())
+
+
+def test_example_runs_and_writes_outputs(example_run):
+    code, out, data = example_run
+    assert code == 0
+    assert (out / "r.pdf").read_bytes()[:5] == b"%PDF-"
+    for k in REQUIRED_KEYS:
+        assert k in data
+
+
+def test_json_is_self_consistent(example_run):
+    # Physics bookkeeping (IEEE Std 80 definitions): GPR = I_G Rg, I_G = Df Sf 3I0,
+    # pass flags agree with the numbers.
+    _, _, d = example_run
+    f = d["fault"]
+    assert d["grid_current_a"] == pytest.approx(d["decrement_factor"] * f["split_factor"] * f["fault_current_3i0_a"])
+    assert d["gpr_v"] == pytest.approx(d["grid_current_a"] * d["grid_resistance_ohm"])
+    assert d["touch_ok"] == (d["max_touch_v"] <= d["tolerable_touch_v"])
+    assert d["step_ok"] == (d["max_step_v"] <= d["tolerable_step_v"])
+    assert 0 < d["max_touch_v"] < d["gpr_v"]
+    assert set(d["step_location"]) == {"start", "end"}
+    assert len(d["input_sha256"]) == 64
+    assert any("licensed" in c for c in d["cautions"])
+
+
+def test_existing_output_needs_overwrite(tmp_path, capsys):
+    out = tmp_path / "r.json"
+    out.write_text("keep me")
+    assert main(["run", str(EXAMPLE), "--json", str(out)]) == 2
+    assert "--overwrite" in capsys.readouterr().err
+    assert out.read_text() == "keep me"
+
+
+def test_output_equal_to_input_is_refused(tmp_path, capsys):
+    copy = tmp_path / "d.xlsx"
+    copy.write_bytes(EXAMPLE.read_bytes())
+    assert main(["run", str(copy), "--report", str(copy), "--overwrite"]) == 2
+    assert "is the input file" in capsys.readouterr().err
+    assert copy.read_bytes() == EXAMPLE.read_bytes()
+
+
+def test_template_refuses_to_overwrite(tmp_path, capsys):
+    p = tmp_path / "t.xlsx"
+    p.write_bytes(b"precious")
+    assert main(["template", str(p)]) == 2
+    assert p.read_bytes() == b"precious"
+
+
+def test_console_script_prints_cautions_and_no_traceback(tmp_path):
+    # The installed entry point, as a user runs it (python -m groundcalc).
+    bad = tmp_path / "bad.xlsx"
+    bad.write_text("not a workbook")
+    r = subprocess.run([sys.executable, "-m", "groundcalc", "run", str(bad)], capture_output=True, text=True)
+    assert r.returncode == 2
+    assert "Traceback" not in r.stderr and "not an .xlsx workbook" in r.stderr
+    r = subprocess.run([sys.executable, "-m", "groundcalc", "--help"], capture_output=True, text=True)
+    assert r.returncode == 0 and "template" in r.stdout and "run" in r.stdout
