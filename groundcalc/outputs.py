@@ -72,6 +72,9 @@ def atomic_write(path: str | Path, writer: Callable[[Path], None]) -> None:
     os.close(fd)
     try:
         writer(Path(tmp))
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual permissions
         os.replace(tmp, target)
     except BaseException:
         if os.path.exists(tmp):

@@ -94,3 +94,13 @@ def test_console_script_prints_cautions_and_no_traceback(tmp_path):
     assert "Traceback" not in r.stderr and "not an .xlsx workbook" in r.stderr
     r = subprocess.run([sys.executable, "-m", "groundcalc", "--help"], capture_output=True, text=True)
     assert r.returncode == 0 and "template" in r.stdout and "run" in r.stdout
+
+
+def test_outputs_get_ordinary_permissions(example_run):
+    import os
+    import stat
+
+    _, out, _ = example_run
+    umask = os.umask(0)
+    os.umask(umask)
+    assert stat.S_IMODE(os.stat(out / "r.json").st_mode) == 0o666 & ~umask
