@@ -20,10 +20,11 @@ import scipy.linalg
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from groundcalc.analysis import plan_lines, soil_images  # noqa: E402
+from groundcalc.analysis import plan_lines  # noqa: E402
+from groundcalc.assembly import assemble, build_greens  # noqa: E402
 from groundcalc.footprint import compute_footprint  # noqa: E402
 from groundcalc.segments import segment_conductors  # noqa: E402
-from groundcalc.solver import Solution, assemble  # noqa: E402
+from groundcalc.solver import Solution  # noqa: E402
 from groundcalc.surface import TouchArea, build_raster, find_max_step, find_max_touch, surface_potential  # noqa: E402
 from groundcalc.template import build_template  # noqa: E402
 from groundcalc.workbook import read_design  # noqa: E402
@@ -65,8 +66,8 @@ def main() -> None:
     t = time.perf_counter()
     seg = segment_conductors(design.all_conductors(), design.settings.segment_length_m)
     times["segmentation"] = time.perf_counter() - t
-    images = soil_images(design.soil)
     t = time.perf_counter()
+    images = build_greens(design.soil, seg.segments, design.settings.margin_m)
     z = assemble(seg.segments, images)
     times["assembly"] = time.perf_counter() - t
     n = z.shape[0]

@@ -10,16 +10,17 @@ from __future__ import annotations
 
 import logging
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from .assembly import build_greens
 from .footprint import compute_footprint
-from .greens import ImageSet, uniform_images
 from .ieee80 import decrement_factor, grid_current_a
-from .model import Design, Notice, Soil
+from .model import Design, Notice
 from .safety import Assessment, Limits, assess, tolerable_limits
-from .segments import Segmentation, segment_conductors
+from .segments import Segmentation, move_off_interface, segment_conductors
+from .soilfit import SoilFit, fit_soil
 from .solver import Solution, solve
 from .surface import (
     Raster,
@@ -33,18 +34,18 @@ from .surface import (
     surface_potential,
 )
 
-__all__ = ["FieldResult", "GeometryResult", "Results", "analyse", "solve_geometry", "soil_images", "surface_field"]
+__all__ = [
+    "FieldResult",
+    "GeometryResult",
+    "Results",
+    "analyse",
+    "evaluate",
+    "resolve_soil",
+    "solve_geometry",
+    "surface_field",
+]
 
 log = logging.getLogger(__name__)
-
-
-def soil_images(soil: Soil) -> ImageSet:
-    """Point images of the soil model's Green's function."""
-    if soil.is_uniform:
-        return uniform_images(soil)
-    from .twolayer import two_layer_images
-
-    return two_layer_images(soil)
 
 
 @dataclass(frozen=True)
@@ -82,12 +83,18 @@ def plan_lines(design: Design) -> np.ndarray:
 def solve_geometry(design: Design) -> GeometryResult:
     """Segment the conductors and solve for the leakage currents."""
     t0 = time.perf_counter()
-    interface = design.soil.thickness_m if not design.soil.is_uniform else None
-    seg = segment_conductors(design.all_conductors(), design.settings.segment_length_m, interface_depth_m=interface)
+    interface = design.soil.thickness_m if design.soil.model == "two-layer" else None
+    conductors = design.all_conductors()
+    moved: tuple[Notice, ...] = ()
+    if interface is not None:
+        conductors, moved = move_off_interface(conductors, interface)
+    seg = segment_conductors(conductors, design.settings.segment_length_m, interface_depth_m=interface)
+    if moved:
+        seg = replace(seg, notices=moved + seg.notices)
     t1 = time.perf_counter()
     log.info("%d conductors split into %d segments", len(seg.conductors), len(seg.segments))
-    images = soil_images(design.soil)
-    sol = solve(seg.segments, images)
+    greens = build_greens(design.soil, seg.segments, design.settings.margin_m)
+    sol = solve(seg.segments, greens)
     t2 = time.perf_counter()
     log.info("grid resistance %.4g ohm", sol.resistance_ohm)
     return GeometryResult(seg, sol, {"segmentation": t1 - t0, "solve": t2 - t1})
@@ -139,6 +146,7 @@ class Results:
     limits: Limits
     assessment: Assessment
     notices: tuple[Notice, ...] = field(default=())
+    soil_fit: SoilFit | None = None
 
     @property
     def resistance_ohm(self) -> float:
@@ -156,7 +164,24 @@ class Results:
         return self.field.step.voltage_v * self.gpr_v
 
 
-def evaluate(design: Design, geometry: GeometryResult, field_result: FieldResult) -> Results:
+def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
+    """Replace a ``fitted`` soil model by the two-layer model fitted to the design's Wenner readings."""
+    if design.soil.model != "fitted":
+        return design, None
+    fit = fit_soil(design.wenner)
+    note = Notice(
+        "soil-fitted",
+        f"Soil model fitted to {len(fit.readings.spacing_m)} Wenner readings: rho1 = {fit.rho1_ohm_m:.4g} ohm*m, "
+        f"H = {fit.thickness_m:.3g} m, rho2 = {fit.rho2_ohm_m:.4g} ohm*m (RMS misfit {fit.misfit_pct:.2g} %; "
+        f"uniform {fit.uniform_ohm_m:.4g} ohm*m would misfit by {fit.uniform_misfit_pct:.2g} %).",
+        "note",
+    )
+    return replace(design, soil=fit.soil, notices=design.notices + (note,)), fit
+
+
+def evaluate(
+    design: Design, geometry: GeometryResult, field_result: FieldResult, soil_fit: SoilFit | None = None
+) -> Results:
     """Apply the fault and safety data of ``design`` to a solved geometry."""
     f = design.fault
     df = decrement_factor(f.x_over_r, f.fault_duration_s, f.frequency_hz)
@@ -164,8 +189,11 @@ def evaluate(design: Design, geometry: GeometryResult, field_result: FieldResult
     gpr = ig * geometry.solution.resistance_ohm
     limits = tolerable_limits(design.soil, design.surface_layer, f)
     result_assessment = assess(limits, field_result.touch.voltage_v * gpr, field_result.step.voltage_v * gpr)
-    notices = design.notices + geometry.segmentation.notices + geometry.solution.notices + field_result.notices
-    return Results(design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices)
+    soil_notes = tuple(Notice("image-series", t, "note") for t in geometry.solution.greens.notes)
+    notices = (
+        design.notices + geometry.segmentation.notices + soil_notes + geometry.solution.notices + field_result.notices
+    )
+    return Results(design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices, soil_fit)
 
 
 def analyse(design: Design) -> Results:
@@ -180,6 +208,7 @@ def analyse(design: Design) -> Results:
     -------
     Results
     """
+    design, fit = resolve_soil(design)
     geometry = solve_geometry(design)
     field_result = surface_field(design, geometry)
-    return evaluate(design, geometry, field_result)
+    return evaluate(design, geometry, field_result, fit)

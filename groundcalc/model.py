@@ -20,6 +20,7 @@ __all__ = [
     "Settings",
     "Soil",
     "SurfaceLayer",
+    "WennerReadings",
 ]
 
 
@@ -59,7 +60,8 @@ class Soil:
     Parameters
     ----------
     model : str
-        ``"uniform"`` or ``"two-layer"``.
+        ``"uniform"``, ``"two-layer"``, or ``"fitted"`` (a two-layer model still
+        to be fitted to the design's Wenner readings; ``rho1_ohm_m`` is NaN).
     rho1_ohm_m : float
         Upper (or only) layer resistivity. [ohm*m]
     thickness_m : float or None
@@ -84,6 +86,28 @@ class Soil:
         if self.model == "uniform" or self.rho2_ohm_m is None:
             return 0.0
         return (self.rho2_ohm_m - self.rho1_ohm_m) / (self.rho2_ohm_m + self.rho1_ohm_m)
+
+
+@dataclass(frozen=True)
+class WennerReadings:
+    """Wenner four-pin readings converted to apparent resistivity.
+
+    Attributes
+    ----------
+    spacing_m : tuple of float
+        Pin spacing a. [m]
+    apparent_ohm_m : tuple of float
+        Apparent resistivity. [ohm*m]
+    rows : tuple of int
+        Spreadsheet rows the readings came from.
+    sheet : str
+        Sheet name.
+    """
+
+    spacing_m: tuple[float, ...]
+    apparent_ohm_m: tuple[float, ...]
+    rows: tuple[int, ...] = ()
+    sheet: str = "Wenner"
 
 
 @dataclass(frozen=True)
@@ -261,6 +285,7 @@ class Design:
     settings: Settings = field(default_factory=Settings)
     notices: tuple[Notice, ...] = ()
     source_name: str = ""
+    wenner: WennerReadings | None = None
 
     def all_conductors(self) -> list[Conductor]:
         """Conductors, generated grid lines and rods as one list."""

@@ -111,8 +111,8 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
             "upper_thickness_m": d.soil.thickness_m,
             "lower_resistivity_ohm_m": d.soil.rho2_ohm_m,
             "reflection_coefficient": d.soil.reflection_k,
-            "image_terms": sol.images.terms,
-            "green_function": sol.images.description,
+            "image_terms": sol.greens.terms,
+            "green_function": sol.greens.description,
         },
         "surface_layer": None
         if d.surface_layer is None

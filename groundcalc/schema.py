@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "sheet_spec"]
+__all__ = ["ALL_SHEETS", "Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "WENNER", "sheet_spec"]
 
 
 @dataclass(frozen=True)
@@ -102,17 +102,18 @@ SOIL = SheetSpec(
             "Model",
             "choice",
             True,
-            help="Soil model: uniform, or two-layer (an upper layer of "
-            "given thickness over a lower layer of infinite depth).",
+            help="Soil model: uniform; two-layer (an upper layer of "
+            "given thickness over a lower layer of infinite depth); or fitted (a two-layer model "
+            "fitted to the readings on the 'Wenner' sheet, which must then be filled in).",
             typical="uniform",
-            choices=("uniform", "two-layer"),
+            choices=("uniform", "two-layer", "fitted"),
         ),
         Field(
             "Upper resistivity",
             "resistivity",
-            True,
+            False,
             "positive",
-            "Resistivity of the soil (uniform model) or of the upper layer.",
+            "Resistivity of the soil (uniform model) or of the upper layer. Required unless Model = fitted.",
             "10 to 3000 ohm*m; wet clay ~20, sand and gravel 100-1000, rock > 1000",
         ),
         Field(
@@ -319,9 +320,43 @@ SETTINGS = SheetSpec(
     "Numerical settings. All optional.",
 )
 
+WENNER = SheetSpec(
+    "Wenner",
+    "table",
+    (
+        Field("Spacing", _LEN, True, "positive", "Pin spacing a of the Wenner array.", "0.5 to 100 m"),
+        Field(
+            "Resistance",
+            "resistance",
+            False,
+            "positive",
+            "Resistance V/I read from the earth tester. Give this or the apparent resistivity.",
+            "0.01 to 1000 ohm",
+        ),
+        Field(
+            "Apparent resistivity",
+            "resistivity",
+            False,
+            "positive",
+            "Apparent resistivity, if already worked out. Give this or the resistance.",
+            "10 to 10000 ohm*m",
+        ),
+        Field(
+            "Pin depth",
+            _LEN,
+            False,
+            "nonnegative",
+            "Depth b the pins are driven; blank = surface pins (b much smaller than a).",
+            "0.1 to 0.5 m (less than a/20)",
+        ),
+    ),
+    "Optional Wenner four-pin soil resistivity readings, one spacing per row. Used by "
+    "'groundcalc soil' and by Model = fitted on the Soil sheet.",
+)
+
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
-TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS)
-ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS)
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER)
+ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER)
 
 
 def sheet_spec(name: str) -> SheetSpec:

@@ -16,7 +16,7 @@ import numpy as np
 
 from .model import Conductor, Notice
 
-__all__ = ["MIN_RADII", "Segmentation", "Segments", "segment_conductors"]
+__all__ = ["MIN_RADII", "Segmentation", "Segments", "move_off_interface", "segment_conductors"]
 
 #: Minimum segment length in conductor radii (thin-wire validity, common practice).
 MIN_RADII = 10.0
@@ -155,6 +155,60 @@ def _touching_splits(p0: np.ndarray, p1: np.ndarray, radius: np.ndarray, tol_m: 
                     splits[dst[k]].append(float(tt[k]))
                     pairs.append((int(src[k]), int(dst[k])))
     return splits, pairs
+
+
+def move_off_interface(
+    conductors: list[Conductor] | tuple[Conductor, ...], interface_depth_m: float
+) -> tuple[tuple[Conductor, ...], tuple[Notice, ...]]:
+    """Move conductors that lie in the plane of a soil interface just above it.
+
+    A conductor lying exactly on the interface of a two-layer soil belongs to
+    neither layer. It is moved up into the upper layer by
+    ``min(1 mm, H / 100)``; the potential is continuous across the interface,
+    so the result does not depend on the side chosen as the distance tends to
+    zero.
+
+    Parameters
+    ----------
+    conductors : sequence of Conductor
+        All conductors and rods.
+    interface_depth_m : float
+        Interface depth H. [m]
+
+    Returns
+    -------
+    (conductors, notices)
+        The conductors (moved ones replaced) and a notice naming them.
+    """
+    h = float(interface_depth_m)
+    delta = min(1e-3, 0.01 * h)
+    out = []
+    moved = []
+    for c in conductors:
+        if abs(c.start[2] - h) <= 1e-6 and abs(c.end[2] - h) <= 1e-6:
+            c = Conductor(
+                c.label,
+                (c.start[0], c.start[1], h - delta),
+                (c.end[0], c.end[1], h - delta),
+                c.diameter_m,
+                c.kind,
+                c.source,
+            )
+            moved.append(c.label)
+        out.append(c)
+    notices = ()
+    if moved:
+        notices = (
+            Notice(
+                "moved-off-interface",
+                f"{len(moved)} conductor(s) lie exactly on the soil layer interface (depth {h:g} m) and "
+                f"were moved {delta * 1000:g} mm up into the upper layer: "
+                + ", ".join(moved[:10])
+                + (" ..." if len(moved) > 10 else ""),
+                "note",
+            ),
+        )
+    return tuple(out), notices
 
 
 def segment_conductors(

@@ -19,17 +19,14 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
-from .greens import ImageSet
-from .kernels import pair_integral
+from .assembly import assemble
+from .greens import Greens
 from .model import Notice
 from .segments import Segments
 
 __all__ = ["Solution", "assemble", "solve"]
 
 log = logging.getLogger(__name__)
-
-#: Number of segment pairs handled at once during assembly (memory bound).
-CHUNK_PAIRS = 1_000_000
 
 
 @dataclass(frozen=True)
@@ -44,8 +41,8 @@ class Solution:
         Grid resistance to remote earth. [ohm]
     unit_currents_a : numpy.ndarray
         Leakage current of each segment when the grid is at 1 V. [A/V]
-    images : ImageSet
-        Soil images used.
+    greens : Greens
+        Soil Green's function used.
     method : str
         Linear solver used.
     notices : tuple of Notice
@@ -55,7 +52,7 @@ class Solution:
     segments: Segments
     resistance_ohm: float
     unit_currents_a: np.ndarray
-    images: ImageSet
+    greens: Greens
     method: str
     notices: tuple[Notice, ...] = ()
 
@@ -68,70 +65,15 @@ class Solution:
         return self.unit_currents_a * gpr_v / self.segments.length
 
 
-def _block_pairs(n: int, i0: int, i1: int) -> tuple[np.ndarray, np.ndarray]:
-    """Index pairs (i, j) with i0 <= i < i1 and j >= i."""
-    rows = np.arange(i0, i1)
-    counts = n - rows
-    ii = np.repeat(rows, counts)
-    starts = np.cumsum(counts) - counts
-    jj = np.arange(ii.size) - np.repeat(starts, counts) + ii
-    return ii, jj
-
-
-def assemble(segments: Segments, images: ImageSet) -> np.ndarray:
-    """Upper triangle of the Galerkin matrix.
-
-    Parameters
-    ----------
-    segments : Segments
-        Thin-wire segments.
-    images : ImageSet
-        Point images of the soil's Green's function.
-
-    Returns
-    -------
-    numpy.ndarray, shape (n, n)
-        Matrix with the upper triangle (including the diagonal) filled and
-        the strict lower triangle zero. [ohm]
-    """
-    n = len(segments)
-    a, b = segments.a, segments.b
-    radius = segments.radius
-    length = segments.length
-    layer = segments.layer
-    z = np.zeros((n, n))
-    rows = max(1, CHUNK_PAIRS // max(n, 1))
-    for i0 in range(0, n, rows):
-        ii, jj = _block_pairs(n, i0, min(n, i0 + rows))
-        vals = np.zeros(ii.size)
-        for (lo, ls), terms in images.images.items():
-            sel = np.flatnonzero((layer[ii] == lo) & (layer[jj] == ls))
-            if sel.size == 0:
-                continue
-            oi, sj = ii[sel], jj[sel]
-            oa, ob = a[oi], b[oi]
-            r2 = radius[oi] * radius[sj]
-            acc = np.zeros(sel.size)
-            for img in terms:
-                sa = a[sj].copy()
-                sb = b[sj].copy()
-                sa[:, 2] = img.map_depth(sa[:, 2])
-                sb[:, 2] = img.map_depth(sb[:, 2])
-                acc += img.weight_ohm_m * pair_integral(oa, ob, sa, sb, r2)
-            vals[sel] = acc
-        z[ii, jj] = vals / (4.0 * np.pi * length[ii] * length[jj])
-    return z
-
-
-def solve(segments: Segments, images: ImageSet) -> Solution:
+def solve(segments: Segments, greens: Greens) -> Solution:
     """Solve for the leakage currents of a grid held at 1 V.
 
     Parameters
     ----------
     segments : Segments
         Thin-wire segments.
-    images : ImageSet
-        Point images of the soil's Green's function.
+    greens : Greens
+        Soil Green's function.
 
     Returns
     -------
@@ -146,7 +88,7 @@ def solve(segments: Segments, images: ImageSet) -> Solution:
     """
     n = len(segments)
     log.info("assembling %d x %d matrix", n, n)
-    z = assemble(segments, images)
+    z = assemble(segments, greens)
     rhs = np.ones(n)
     notices: list[Notice] = []
     try:
@@ -154,7 +96,7 @@ def solve(segments: Segments, images: ImageSet) -> Solution:
         currents = scipy.linalg.cho_solve(factor, rhs, check_finite=False)
         method = "Cholesky"
     except np.linalg.LinAlgError:
-        z = assemble(segments, images)
+        z = assemble(segments, greens)
         z = z + np.triu(z, 1).T
         currents = scipy.linalg.solve(z, rhs, assume_a="sym")
         method = "symmetric indefinite (Cholesky failed)"
@@ -176,4 +118,4 @@ def solve(segments: Segments, images: ImageSet) -> Solution:
                 "segments are too short or conductors overlap. Use a longer segment length.",
             )
         )
-    return Solution(segments, 1.0 / total, currents, images, method, tuple(notices))
+    return Solution(segments, 1.0 / total, currents, greens, method, tuple(notices))

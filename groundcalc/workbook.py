@@ -19,11 +19,24 @@ import openpyxl
 from openpyxl.utils import get_column_letter
 
 from .errors import InputError
-from .model import Conductor, Design, Fault, GridSpec, Notice, Project, Rod, Settings, Soil, SurfaceLayer
-from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, Field, SheetSpec
+from .model import (
+    Conductor,
+    Design,
+    Fault,
+    GridSpec,
+    Notice,
+    Project,
+    Rod,
+    Settings,
+    Soil,
+    SurfaceLayer,
+    WennerReadings,
+)
+from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, WENNER, Field, SheetSpec
+from .soilfit import wenner_apparent_resistivity
 from .units import UNITS, normalise_name, split_header, to_si
 
-__all__ = ["MAX_TABLE_ROWS", "open_workbook", "read_design", "read_keyvalue", "read_table"]
+__all__ = ["MAX_TABLE_ROWS", "open_workbook", "read_design", "read_keyvalue", "read_table", "read_wenner"]
 
 #: Largest number of rows read from one table sheet.
 MAX_TABLE_ROWS = 20_000
@@ -437,6 +450,21 @@ def _read_soil(wb, notices: list[Notice]) -> tuple[Soil, SurfaceLayer | None]:
         return v
 
     model = req("model", "")
+    if model == "fitted":
+        for key in ("upper resistivity", "upper thickness", "lower resistivity"):
+            if value(cells, f[key]) is not None:
+                notices.append(
+                    Notice(
+                        "ignored-input",
+                        f"Soil '{f[key].name}' is ignored because Model = fitted (the model is fitted to "
+                        "the Wenner readings).",
+                        "note",
+                    )
+                )
+        soil = Soil("fitted", math.nan)
+        rho_s = value(cells, f["surface layer resistivity"])
+        h_s = value(cells, f["surface layer thickness"])
+        return soil, _surface(cells, f, rho_s, h_s)
     rho1 = req("upper resistivity", "")
     if model == "uniform":
         for key in ("upper thickness", "lower resistivity"):
@@ -454,13 +482,16 @@ def _read_soil(wb, notices: list[Notice]) -> tuple[Soil, SurfaceLayer | None]:
         )
     rho_s = value(cells, f["surface layer resistivity"])
     h_s = value(cells, f["surface layer thickness"])
+    return soil, _surface(cells, f, rho_s, h_s)
+
+
+def _surface(cells, f, rho_s, h_s) -> SurfaceLayer | None:
     if (rho_s is None) != (h_s is None):
         given, missing = ("surface layer resistivity", "surface layer thickness")[:: 1 if rho_s is not None else -1]
         err = _missing(cells, SOIL, f[missing], f" because '{f[given].name}' is given")
         err.fix = "Give both surface layer values, or leave both blank for no surface layer"
         raise err
-    surface = SurfaceLayer(rho_s, h_s) if rho_s is not None else None
-    return soil, surface
+    return SurfaceLayer(rho_s, h_s) if rho_s is not None else None
 
 
 def _read_fault(wb, notices: list[Notice]) -> Fault:
@@ -609,6 +640,90 @@ def _read_grids(wb) -> list[GridSpec]:
     return out
 
 
+#: Fewest Wenner spacings a two-layer fit accepts.
+MIN_WENNER_SPACINGS = 3
+
+
+def _read_wenner(wb) -> WennerReadings | None:
+    f = _field_map(WENNER)
+    rows = read_table(wb, WENNER)
+    if not rows:
+        return None
+    spacing, rho, where = [], [], []
+    seen: dict[float, int] = {}
+    for cells in rows:
+        row = _row_of(cells)
+        a = _required(cells, WENNER, f["spacing"], row)
+        r = value(cells, f["resistance"])
+        ra = value(cells, f["apparent resistivity"])
+        b = value(cells, f["pin depth"])
+        if (r is None) == (ra is None):
+            raise InputError(
+                "give either the resistance or the apparent resistivity for this spacing"
+                + (" (both are filled in)" if r is not None else " (both are blank)"),
+                sheet=WENNER.name,
+                row=row,
+                column="'Resistance [ohm]' / 'Apparent resistivity [ohm*m]'",
+                fix="Fill in exactly one of the two",
+            )
+        if b is not None and b >= a:
+            c = cells["pin depth"]
+            raise InputError(
+                f"pin depth {b:g} m is not smaller than the spacing {a:g} m",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="The Wenner formula needs pins much shallower than their spacing (b < a/20 is usual)",
+            )
+        key = round(a, 9)
+        if key in seen:
+            c = cells["spacing"]
+            raise InputError(
+                f"spacing {a:g} m is given twice (first on row {seen[key]})",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="Average repeated readings into one row, or delete one of them",
+            )
+        seen[key] = row
+        if ra is None:
+            ra = float(wenner_apparent_resistivity(a, r, b))
+        spacing.append(a)
+        rho.append(ra)
+        where.append(row)
+    if len(spacing) < MIN_WENNER_SPACINGS:
+        raise InputError(
+            f"only {len(spacing)} Wenner spacing(s) given; a soil model needs at least {MIN_WENNER_SPACINGS}",
+            sheet=WENNER.name,
+            row=where[-1] + 1,
+            column="'Spacing [m]' (A)",
+            fix="Add readings at more spacings; 6 to 12 spacings from about 0.5 m to the grid size are usual",
+        )
+    return WennerReadings(tuple(spacing), tuple(rho), tuple(where), WENNER.name)
+
+
+def read_wenner(path: str | Path) -> WennerReadings:
+    """Read the Wenner sheet of a workbook.
+
+    Raises
+    ------
+    InputError
+        When the sheet is missing, empty or has bad readings.
+    """
+    wb = open_workbook(path)
+    try:
+        readings = _read_wenner(wb)
+    finally:
+        wb.close()
+    if readings is None:
+        raise InputError(
+            f"'{Path(path).name}' has no Wenner readings",
+            sheet=WENNER.name,
+            fix="Add a 'Wenner' sheet with the columns " + ", ".join(f"'{x.header()}'" for x in WENNER.fields),
+        )
+    return readings
+
+
 def read_design(path: str | Path) -> Design:
     """Read and validate a design workbook.
 
@@ -637,6 +752,21 @@ def read_design(path: str | Path) -> Design:
         conductors = _read_conductors(wb)
         rods = _read_rods(wb)
         grids = _read_grids(wb)
+        wenner = _read_wenner(wb) if soil.model == "fitted" else None
+        if soil.model == "fitted" and wenner is None:
+            raise InputError(
+                "Model = fitted needs Wenner readings, but the 'Wenner' sheet is missing or empty",
+                sheet=SOIL.name,
+                row=2,
+                column="'Value' (B) ('Model')",
+                fix="Fill in the 'Wenner' sheet, or choose uniform or two-layer and give the resistivities",
+            )
+        if soil.model != "fitted" and _find_sheet(wb, WENNER.name) is not None and read_table(wb, WENNER):
+            notices.append(
+                Notice(
+                    "ignored-input", "The Wenner readings are not used because the Soil model is not 'fitted'.", "note"
+                )
+            )
     finally:
         wb.close()
     if not (conductors or rods or grids):
@@ -656,4 +786,5 @@ def read_design(path: str | Path) -> Design:
         settings=settings,
         notices=tuple(notices),
         source_name=Path(path).name,
+        wenner=wenner,
     )

@@ -3,17 +3,18 @@
 import numpy as np
 import pytest
 
-from groundcalc.greens import uniform_images
+from groundcalc.greens import uniform_greens
 from groundcalc.model import Conductor, Rod, Soil
 from groundcalc.segments import segment_conductors
-from groundcalc.solver import assemble, solve
+from groundcalc.assembly import assemble
+from groundcalc.solver import solve
 
 from .conftest import annex_b_grid
 
 
 def resistance(conductors, rho, seg_len):
     seg = segment_conductors(conductors, seg_len)
-    return solve(seg.segments, uniform_images(Soil("uniform", rho))).resistance_ohm
+    return solve(seg.segments, uniform_greens(Soil("uniform", rho))).resistance_ohm
 
 
 def dwight_rod(rho, length, a):
@@ -84,7 +85,7 @@ def test_annex_b1_halving_segment_length_changes_resistance_below_half_percent(a
 def test_matrix_is_symmetric_positive_definite():
     # Galerkin testing of a positive kernel gives an SPD matrix (design notes).
     seg = segment_conductors(annex_b_grid(3)[0].conductors(), 5.0)
-    z = assemble(seg.segments, uniform_images(Soil("uniform", 100.0)))
+    z = assemble(seg.segments, uniform_greens(Soil("uniform", 100.0)))
     full = z + np.triu(z, 1).T
     assert np.all(np.linalg.eigvalsh(full) > 0)
 

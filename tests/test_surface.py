@@ -6,7 +6,7 @@ from scipy.integrate import quad
 
 from groundcalc.analysis import analyse
 from groundcalc.footprint import compute_footprint
-from groundcalc.greens import uniform_images
+from groundcalc.greens import uniform_greens
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
 from groundcalc.segments import segment_conductors
 from groundcalc.solver import Solution, solve
@@ -18,7 +18,7 @@ from .conftest import make_design
 def fixed_solution(conductors, rho, seg_len, currents_per_m):
     seg = segment_conductors(conductors, seg_len).segments
     cur = currents_per_m * seg.length
-    return Solution(seg, 1.0, cur, uniform_images(Soil("uniform", rho)), "given")
+    return Solution(seg, 1.0, cur, uniform_greens(Soil("uniform", rho)), "given")
 
 
 def test_rod_surface_potential_matches_line_source_closed_form():
@@ -48,7 +48,7 @@ def test_far_field_tends_to_point_source_on_surface():
     # textbook). At r = 2 km from a 20 m grid the difference is below 0.1 %.
     grid = GridSpec("g", 0, 0, 20, 20, 3, 3, 0.5, 0.01).conductors()
     seg = segment_conductors(grid, 2.0).segments
-    sol = solve(seg, uniform_images(Soil("uniform", 100.0)))
+    sol = solve(seg, uniform_greens(Soil("uniform", 100.0)))
     gpr = 1000.0
     i_total = gpr / sol.resistance_ohm
     v = surface_potential(np.array([[2010.0, 10.0]]), sol, gpr)[0]
@@ -59,7 +59,7 @@ def test_far_field_tends_to_point_source_on_surface():
 def small_grid_field():
     grid = GridSpec("g", 0, 0, 20, 20, 5, 5, 0.5, 0.01)
     seg = segment_conductors(grid.conductors(), 1.0).segments
-    sol = solve(seg, uniform_images(Soil("uniform", 100.0)))
+    sol = solve(seg, uniform_greens(Soil("uniform", 100.0)))
     lines = np.array([[c.start[:2], c.end[:2]] for c in grid.conductors()])
     area = TouchArea(compute_footprint(lines), lines)
     raster = build_raster(sol, 1.0, area, 0.5, 4.0)

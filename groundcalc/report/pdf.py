@@ -196,7 +196,7 @@ def inputs(results: Results) -> list:
         ["Rods", f"{len(d.rods)}, total {sum(r.length_m for r in d.rods):,.1f} m"],
         ["Segments (target length)", f"{len(seg)} ({d.settings.segment_length_m:g} m)"],
         ["Surface raster spacing, margin", f"{results.field.raster.spacing_m:g} m, {d.settings.margin_m:g} m"],
-        ["Soil Green's function", results.geometry.solution.images.description],
+        ["Soil Green's function", results.geometry.solution.greens.description],
         ["Linear solver", results.geometry.solution.method],
     ]
     w = [70 * mm, 100 * mm]
