@@ -1,4 +1,4 @@
-"""Command line: ``groundcalc template`` and ``groundcalc run``.
+"""Command line: ``groundcalc template``, ``groundcalc run`` and ``groundcalc soil``.
 
 Exit codes: 0 finished (the design may still fail the safety criteria; the
 output says so), 2 bad input or arguments, 1 internal error.
@@ -91,6 +91,9 @@ def _cmd_run(args: argparse.Namespace) -> int:
     results = analyse(design)
     for n in results.notices:
         log.warning("%s: %s", n.level, n.message)
+    if results.soil_fit is not None:
+        print("\n".join(soil_fit_lines(results.soil_fit)))
+        print()
     print("\n".join(_summary_lines(results)))
     if json_out:
         write_json(json_out, results_to_dict(results, args.workbook))
@@ -102,6 +105,57 @@ def _cmd_run(args: argparse.Namespace) -> int:
         atomic_write(report, lambda tmp: write_report(results, tmp, Path(args.workbook).name, sha_before or ""))
         log.info("wrote %s", report)
     _print_cautions()
+    return 0
+
+
+def soil_fit_lines(fit) -> list[str]:
+    """Plain-text summary of a soil fit (used by ``soil`` and ``run``)."""
+    rows = fit.readings.rows
+    where = f"sheet '{fit.readings.sheet}'" + (f", rows {min(rows)}-{max(rows)}" if rows else "")
+    lines = [
+        f"Wenner readings: {len(fit.readings.spacing_m)} spacings ({where})",
+        f"Uniform model:    rho  = {fit.uniform_ohm_m:9.4g} ohm*m{'':32s}RMS misfit {fit.uniform_misfit_pct:6.2f} %",
+        f"Two-layer model:  rho1 = {fit.rho1_ohm_m:9.4g} ohm*m, H = {fit.thickness_m:7.3g} m, "
+        f"rho2 = {fit.rho2_ohm_m:9.4g} ohm*m   RMS misfit {fit.misfit_pct:6.2f} %   (K = {fit.soil.reflection_k:+.3f})",
+        "",
+        f"  {'Spacing [m]':>11s}  {'Measured [ohm*m]':>16s}  {'Two-layer [ohm*m]':>17s}  {'Dev. [%]':>8s}"
+        f"  {'Uniform dev. [%]':>16s}",
+    ]
+    for a, m, p, dev, udev in fit.table():
+        lines.append(f"  {a:11.3g}  {m:16.4g}  {p:17.4g}  {dev:+8.2f}  {udev:+16.2f}")
+    return lines
+
+
+def _cmd_soil(args: argparse.Namespace) -> int:
+    from .outputs import check_output, soil_fit_to_dict, write_design_with_soil, write_json
+    from .soilfit import fit_soil
+    from .workbook import read_wenner
+
+    inputs = [args.workbook]
+    design_out = check_output(args.write_design, inputs, args.overwrite, "design") if args.write_design else None
+    if design_out is not None and design_out.suffix.lower() != ".xlsx":
+        raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-fitted.xlsx")
+    json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
+    readings = read_wenner(args.workbook)
+    log.info("fitting uniform and two-layer models to %d readings", len(readings.spacing_m))
+    fit = fit_soil(readings)
+    print("\n".join(soil_fit_lines(fit)))
+    if fit.misfit_pct > 10.0:
+        print(
+            f"\nWARNING: the two-layer model misfits the readings by {fit.misfit_pct:.1f} % RMS. "
+            "The soil may have more "
+            "layers or lateral changes, or some readings may be in error; review the data before using the model."
+        )
+    if json_out:
+        write_json(json_out, {"input_file": str(args.workbook), "soil_fit": soil_fit_to_dict(fit)})
+        log.info("wrote %s", json_out)
+    if design_out:
+        write_design_with_soil(args.workbook, design_out, fit)
+        print(f"\nwrote {design_out} with the fitted two-layer model on its Soil sheet (the input is unchanged)")
+    print(
+        "\nCAUTION: a fitted soil model is only as good as the readings. Seasonal changes (frozen or dry "
+        "topsoil) and soil variation across the site are not captured; a licensed engineer decides the design model."
+    )
     return 0
 
 
@@ -126,6 +180,14 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--overwrite", action="store_true", help="replace existing output files")
     r.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     r.set_defaults(func=_cmd_run)
+
+    s = sub.add_parser("soil", help="fit uniform and two-layer soil models to Wenner readings")
+    s.add_argument("workbook", help="workbook with a 'Wenner' sheet (.xlsx)")
+    s.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the fitted model")
+    s.add_argument("--json", metavar="JSON", help="write the fit to this file")
+    s.add_argument("--overwrite", action="store_true", help="replace existing output files")
+    s.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    s.set_defaults(func=_cmd_soil)
     return p
 
 
@@ -142,6 +204,8 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as exc:
         print(f"groundcalc: error: {exc}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        return 0
     except KeyboardInterrupt:
         print("groundcalc: interrupted", file=sys.stderr)
         return 130

@@ -188,10 +188,12 @@ def uniform_greens(soil: Soil) -> Greens:
     Effects in Transmission Systems*, Dover, 1968, ch. 2.
     """
     rho = soil.rho1_ohm_m
-    terms = (Image(rho, 1, 0.0), Image(rho, -1, 0.0))
+    terms = PairKernel((Image(rho, 1, 0.0), Image(rho, -1, 0.0)), (), 2)
+    on_surface = PairKernel((Image(2.0 * rho, 1, 0.0),), (), 1)
+    # the same kernel for every layer label, so segments split at a depth still see uniform soil
     return Greens(
-        pairs={(0, 0): PairKernel(terms, (), 2)},
-        surface={0: PairKernel((Image(2.0 * rho, 1, 0.0),), (), 1)},
+        pairs={(lo, ls): terms for lo in (0, 1) for ls in (0, 1)},
+        surface={0: on_surface, 1: on_surface},
         description="uniform soil: source and surface image",
         terms=2,
         explicit_terms=2,

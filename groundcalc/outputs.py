@@ -21,7 +21,15 @@ from .analysis import Results
 from .cautions import CAUTIONS, DRAFT_MARK
 from .errors import InputError
 
-__all__ = ["atomic_write", "check_output", "file_sha256", "results_to_dict", "write_json"]
+__all__ = [
+    "atomic_write",
+    "check_output",
+    "file_sha256",
+    "results_to_dict",
+    "soil_fit_to_dict",
+    "write_design_with_soil",
+    "write_json",
+]
 
 
 def file_sha256(path: str | Path) -> str:
@@ -162,7 +170,83 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
         "cautions": [f"{h}: {t}" for h, t in CAUTIONS],
         "timings_s": {**results.geometry.seconds, "surface": results.field.seconds},
     }
+    g = sol.greens
+    out["soil"]["explicit_images"] = g.explicit_terms
+    out["soil"]["series_tolerance"] = g.tolerance or None
+    if results.soil_fit is not None:
+        out["soil_fit"] = soil_fit_to_dict(results.soil_fit)
     return out
+
+
+def soil_fit_to_dict(fit) -> dict[str, Any]:
+    """A :class:`~groundcalc.soilfit.SoilFit` as a JSON-ready dictionary."""
+    return {
+        "two_layer": {
+            "upper_resistivity_ohm_m": fit.rho1_ohm_m,
+            "upper_thickness_m": fit.thickness_m,
+            "lower_resistivity_ohm_m": fit.rho2_ohm_m,
+            "reflection_coefficient": fit.soil.reflection_k,
+            "rms_misfit_pct": fit.misfit_pct,
+        },
+        "uniform": {"resistivity_ohm_m": fit.uniform_ohm_m, "rms_misfit_pct": fit.uniform_misfit_pct},
+        "readings": [
+            {
+                "spacing_m": a,
+                "measured_ohm_m": m,
+                "two_layer_ohm_m": p,
+                "two_layer_deviation_pct": dev,
+                "uniform_deviation_pct": udev,
+                "row": row,
+            }
+            for (a, m, p, dev, udev), row in zip(fit.table(), fit.readings.rows or [None] * 999, strict=False)
+        ],
+        "method": "least squares on log apparent resistivity, IEEE Std 81 two-layer Wenner series",
+        "starting_points": fit.starts,
+    }
+
+
+def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
+    """Copy a workbook with its Soil sheet set to the fitted two-layer model.
+
+    The source is only read. Rows for Model, upper resistivity, upper
+    thickness and lower resistivity are rewritten in the template's units
+    (or added); every other cell and sheet is copied as openpyxl reads it.
+    """
+    import openpyxl
+
+    from .schema import SOIL
+    from .template import keyvalue_sheet
+    from .units import normalise_name, split_header
+
+    wb = openpyxl.load_workbook(source)
+    ws = None
+    for name in wb.sheetnames:
+        if normalise_name(name) == normalise_name(SOIL.name):
+            ws = wb[name]
+    if ws is None:
+        ws = keyvalue_sheet(wb, SOIL)
+    note = (
+        f"Fitted by groundcalc soil to the Wenner readings (RMS misfit {fit.misfit_pct:.2g} %); "
+        "check against the site investigation."
+    )
+    values = {
+        "model": ("Model", "two-layer"),
+        "upper resistivity": ("Upper resistivity [ohm*m]", round(fit.rho1_ohm_m, 6)),
+        "upper thickness": ("Upper thickness [m]", round(fit.thickness_m, 6)),
+        "lower resistivity": ("Lower resistivity [ohm*m]", round(fit.rho2_ohm_m, 6)),
+    }
+    for row in ws.iter_rows(min_row=2):
+        if row[0].value is None:
+            continue
+        key = split_header(str(row[0].value))[0]
+        if key in values:
+            header, val = values.pop(key)
+            row[0].value = header
+            ws.cell(row=row[0].row, column=2, value=val)
+            ws.cell(row=row[0].row, column=3, value=note)
+    for header, val in values.values():
+        ws.append([header, val, note])
+    atomic_write(target, lambda tmp: wb.save(tmp))
 
 
 def write_json(path: str | Path, data: dict[str, Any]) -> None:

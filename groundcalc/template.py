@@ -13,7 +13,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 from .schema import ALL_SHEETS, SheetSpec
 from .units import UNITS
 
-__all__ = ["INSTRUCTIONS_SHEET", "build_template"]
+__all__ = ["INSTRUCTIONS_SHEET", "build_template", "keyvalue_sheet"]
 
 INSTRUCTIONS_SHEET = "Instructions"
 
@@ -48,7 +48,8 @@ def _style_header(ws, ncols: int) -> None:
     ws.freeze_panes = "A2"
 
 
-def _keyvalue_sheet(wb, spec: SheetSpec) -> None:
+def keyvalue_sheet(wb, spec: SheetSpec):
+    """Add a key-value sheet laid out as in the template; returns it."""
     ws = wb.create_sheet(spec.name)
     ws.append([spec.key_header, "Value", "Notes"])
     for f in spec.fields:
@@ -70,6 +71,7 @@ def _keyvalue_sheet(wb, spec: SheetSpec) -> None:
             dv = DataValidation(type="list", formula1='"50,70"', allow_blank=True)
             dv.add(f"B{f_idx}")
             ws.add_data_validation(dv)
+    return ws
 
 
 def _table_sheet(wb, spec: SheetSpec) -> None:
@@ -133,7 +135,7 @@ def build_template() -> openpyxl.Workbook:
     _instructions(wb)
     for spec in ALL_SHEETS:
         if spec.layout == "keyvalue":
-            _keyvalue_sheet(wb, spec)
+            keyvalue_sheet(wb, spec)
         else:
             _table_sheet(wb, spec)
     return wb

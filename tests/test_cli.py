@@ -104,3 +104,60 @@ def test_outputs_get_ordinary_permissions(example_run):
     umask = os.umask(0)
     os.umask(umask)
     assert stat.S_IMODE(os.stat(out / "r.json").st_mode) == 0o666 & ~umask
+
+
+def _fitted_workbook(path):
+    """A small design with Model = fitted and Wenner readings of a known two-layer soil (series
+    of IEEE Std 81 with rho1 = 100, rho2 = 300, H = 6.1 m)."""
+    import numpy as np
+    import openpyxl
+
+    from groundcalc.soilfit import two_layer_wenner
+
+    from .conftest import write_workbook
+
+    p = write_workbook(path, soil={"Model": "fitted"}, grids=[["G", 0, 0, 20, 20, 3, 3, 0.5, 10]])
+    wb = openpyxl.load_workbook(p)
+    a = np.array([1, 2, 3, 5, 7.5, 10, 15, 20, 30, 50.0])
+    for x, r in zip(a, two_layer_wenner(a, 100, 300, 6.1), strict=True):
+        wb["Wenner"].append([float(x), None, float(r)])
+    wb.save(p)
+    return p
+
+
+def test_soil_command_prints_fit_and_writes_design_copy(tmp_path, capsys):
+    src = _fitted_workbook(tmp_path / "site.xlsx")
+    before = src.read_bytes()
+    out = tmp_path / "site-fitted.xlsx"
+    assert main(["soil", str(src), "--write-design", str(out), "--json", str(tmp_path / "fit.json")]) == 0
+    text = capsys.readouterr().out
+    assert "Two-layer model" in text and "RMS misfit" in text and "CAUTION" in text
+    assert src.read_bytes() == before  # the input is never changed
+    from groundcalc.workbook import read_design
+
+    d = read_design(out)
+    assert d.soil.model == "two-layer"
+    assert d.soil.rho1_ohm_m == pytest.approx(100, rel=0.01) and d.soil.thickness_m == pytest.approx(6.1, rel=0.01)
+    fit = json.loads((tmp_path / "fit.json").read_text())["soil_fit"]
+    assert fit["two_layer"]["lower_resistivity_ohm_m"] == pytest.approx(300, rel=0.01)
+    assert len(fit["readings"]) == 10
+
+
+def test_soil_command_refuses_to_overwrite_its_input(tmp_path, capsys):
+    src = _fitted_workbook(tmp_path / "site.xlsx")
+    assert main(["soil", str(src), "--write-design", str(src), "--overwrite"]) == 2
+    assert "is the input file" in capsys.readouterr().err
+
+
+def test_run_with_fitted_soil_reports_the_fit(tmp_path):
+    src = _fitted_workbook(tmp_path / "site.xlsx")
+    assert (
+        main(["run", str(src), "--json", str(tmp_path / "r.json"), "--report", str(tmp_path / "r.pdf"), "--quiet"]) == 0
+    )
+    d = json.loads((tmp_path / "r.json").read_text())
+    assert d["soil"]["model"] == "two-layer" and "soil_fit" in d
+    assert d["soil"]["image_terms"] >= d["soil"]["explicit_images"] > 2
+    from pypdf import PdfReader
+
+    text = "".join(p.extract_text() for p in PdfReader(tmp_path / "r.pdf").pages)
+    assert "Soil model fitted to Wenner readings" in text and "Image terms" in text

@@ -3,10 +3,10 @@
 import numpy as np
 import pytest
 
+from groundcalc.assembly import assemble
 from groundcalc.greens import uniform_greens
 from groundcalc.model import Conductor, Rod, Soil
 from groundcalc.segments import segment_conductors
-from groundcalc.assembly import assemble
 from groundcalc.solver import solve
 
 from .conftest import annex_b_grid

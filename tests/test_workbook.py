@@ -3,6 +3,7 @@
 import hashlib
 from pathlib import Path
 
+import numpy as np
 import openpyxl
 import pytest
 
@@ -229,3 +230,88 @@ def test_read_design_raises_input_error_with_fields(tmp_path):
     with pytest.raises(InputError) as e:
         read_design(p)
     assert e.value.sheet == "Grids" and e.value.row == 2 and "(E)" in e.value.column
+
+
+def _wenner_book(path, rows, soil=None, header=None):
+    p = write_workbook(path, soil=soil or {"Model": "fitted"}, grids=[B1_GRID])
+    wb = openpyxl.load_workbook(p)
+    ws = wb["Wenner"]
+    if header:
+        for col, h in enumerate(header, start=1):
+            ws.cell(row=1, column=col, value=h)
+    for r in rows:
+        ws.append(list(r))
+    wb.save(p)
+    return p
+
+
+GOOD_WENNER = [[1, None, 101.3], [2, None, 103.9], [5, None, 113.8], [10, None, 149.2], [20, None, 203.6]]
+
+# (id, Wenner rows, words the message must contain)
+BAD_WENNER = [
+    ("two-spacings", [[1, None, 100], [2, None, 110]], ["sheet 'Wenner'", "row 4", "at least 3"]),
+    (
+        "zero-spacing",
+        [[0, None, 100]] + GOOD_WENNER[1:],
+        ["sheet 'Wenner'", "row 2", "'Spacing [m]' (A)", "greater than zero"],
+    ),
+    (
+        "negative-resistance",
+        [[1, -3, None]] + GOOD_WENNER[1:],
+        ["sheet 'Wenner'", "row 2", "'Resistance [ohm]' (B)", "greater than zero"],
+    ),
+    (
+        "zero-rho",
+        GOOD_WENNER[:2] + [[5, None, 0]],
+        ["sheet 'Wenner'", "row 4", "'Apparent resistivity", "greater than zero"],
+    ),
+    ("duplicate", GOOD_WENNER + [[10, None, 150]], ["sheet 'Wenner'", "row 7", "given twice", "row 5"]),
+    ("text", GOOD_WENNER[:2] + [["five", None, 110]], ["sheet 'Wenner'", "row 4", "'five' is not a number"]),
+    ("both-values", GOOD_WENNER[:2] + [[5, 3.6, 113]], ["sheet 'Wenner'", "row 4", "both are filled in"]),
+    ("neither-value", GOOD_WENNER[:2] + [[5, None, None, 0.2]], ["sheet 'Wenner'", "row 4", "both are blank"]),
+    (
+        "pin-too-deep",
+        GOOD_WENNER[:2] + [[5, None, 113, 6]],
+        ["sheet 'Wenner'", "row 4", "'Pin depth [m]' (D)", "smaller than the spacing"],
+    ),
+]
+
+
+@pytest.mark.parametrize("name,rows,words", BAD_WENNER, ids=[b[0] for b in BAD_WENNER])
+@pytest.mark.parametrize("command", ["soil", "run"])
+def test_bad_wenner_data_names_the_row(tmp_path, capsys, name, rows, words, command):
+    p = _wenner_book(tmp_path / "w.xlsx", rows)
+    before = hashlib.sha256(p.read_bytes()).hexdigest()
+    assert main([command, str(p), "--json", str(tmp_path / "o.json")]) == 2
+    err = capsys.readouterr().err
+    for w in words:
+        assert w in err, (w, err)
+    assert "Traceback" not in err and not (tmp_path / "o.json").exists()
+    assert hashlib.sha256(p.read_bytes()).hexdigest() == before
+
+
+def test_fitted_model_needs_wenner_readings(tmp_path, capsys):
+    p = _wenner_book(tmp_path / "w.xlsx", [])
+    assert main(["run", str(p)]) == 2
+    err = capsys.readouterr().err
+    assert "sheet 'Soil'" in err and "Wenner" in err
+
+
+def test_wenner_resistance_with_pin_depth_is_converted(tmp_path):
+    # Resistance readings with pin depth go through the IEEE Std 81 formula (see test_soilfit).
+    from groundcalc.soilfit import wenner_apparent_resistivity
+    from groundcalc.workbook import read_wenner
+
+    p = _wenner_book(tmp_path / "w.xlsx", [[1, 16.0, None, 0.1], [2, 8.3, None, 0.1], [4, 4.6, None, None]])
+    w = read_wenner(p)
+    assert w.spacing_m == (1, 2, 4) and w.rows == (2, 3, 4)
+    assert w.apparent_ohm_m[0] == pytest.approx(wenner_apparent_resistivity(1, 16.0, 0.1))
+    assert w.apparent_ohm_m[2] == pytest.approx(2 * np.pi * 4 * 4.6)
+
+
+def test_wenner_spacing_in_feet(tmp_path):
+    from groundcalc.workbook import read_wenner
+
+    header = ["Spacing [ft]", "Resistance [ohm]", "Apparent resistivity [ohm*m]", "Pin depth [ft]"]
+    p = _wenner_book(tmp_path / "w.xlsx", [[10, None, 100], [20, None, 120], [40, None, 150]], header=header)
+    assert read_wenner(p).spacing_m == pytest.approx((3.048, 6.096, 12.192))

@@ -5,6 +5,7 @@ from __future__ import annotations
 import datetime as _dt
 from pathlib import Path
 
+import numpy as np
 from reportlab.lib import colors
 from reportlab.lib.enums import TA_CENTER
 from reportlab.lib.pagesizes import A4
@@ -16,6 +17,7 @@ from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Space
 from .. import __version__
 from ..analysis import Results
 from ..cautions import CAUTIONS, DRAFT_MARK
+from .charts import Series, line_chart
 
 __all__ = ["write_report"]
 
@@ -30,6 +32,9 @@ PASS_COLOUR = colors.HexColor("#1b7837")
 FAIL_COLOUR = colors.HexColor("#b2182b")
 GRID_LINE = colors.HexColor("#9aa5b1")
 HEAD_FILL = colors.HexColor("#e4e9ef")
+MEASURED_COLOUR = colors.HexColor("#b35806")
+FIT_COLOUR = colors.HexColor("#1f4e79")
+UNIFORM_COLOUR = colors.HexColor("#7f7f7f")
 
 
 class _NumberedCanvas(_canvas.Canvas):
@@ -196,7 +201,11 @@ def inputs(results: Results) -> list:
         ["Rods", f"{len(d.rods)}, total {sum(r.length_m for r in d.rods):,.1f} m"],
         ["Segments (target length)", f"{len(seg)} ({d.settings.segment_length_m:g} m)"],
         ["Surface raster spacing, margin", f"{results.field.raster.spacing_m:g} m, {d.settings.margin_m:g} m"],
-        ["Soil Green's function", results.geometry.solution.greens.description],
+        ["Soil Green's function", Paragraph(results.geometry.solution.greens.description, SMALL)],
+        [
+            "Image terms (explicit / all)",
+            f"{results.geometry.solution.greens.explicit_terms} / {results.geometry.solution.greens.terms}",
+        ],
         ["Linear solver", results.geometry.solution.method],
     ]
     w = [70 * mm, 100 * mm]
@@ -207,6 +216,45 @@ def inputs(results: Results) -> list:
         _table([["Fault", ""]] + fault_rows, w, align_right_from=2),
         Spacer(1, 4),
         _table([["Geometry and numerics", ""]] + geo_rows, w, align_right_from=2),
+    ]
+
+
+def soil_fit_section(results: Results) -> list:
+    """Wenner readings against the fitted models."""
+    fit = results.soil_fit
+    if fit is None:
+        return []
+    a = np.asarray(fit.readings.spacing_m)
+    meas = np.asarray(fit.readings.apparent_ohm_m)
+    curve_a = np.geomspace(a.min() * 0.8, a.max() * 1.25, 120)
+    chart = line_chart(
+        [
+            Series(a, meas, "measured (Wenner)", MEASURED_COLOUR, "markers"),
+            Series(curve_a, fit.model_ohm_m(curve_a), "two-layer fit", FIT_COLOUR, "line"),
+            Series(curve_a, np.full_like(curve_a, fit.uniform_ohm_m), "uniform fit", UNIFORM_COLOUR, "dashed"),
+        ],
+        165 * mm,
+        70 * mm,
+        "Pin spacing a [m]",
+        "Apparent resistivity [ohm*m]",
+        xlog=True,
+        ylog=True,
+    )
+    rows = [["Spacing [m]", "Measured [ohm*m]", "Two-layer [ohm*m]", "Deviation [%]"]]
+    rows += [[f"{x:g}", f"{m:.4g}", f"{p:.4g}", f"{dev:+.1f}"] for x, m, p, dev, _ in fit.table()]
+    text = (
+        f"Two-layer model fitted to {len(a)} Wenner readings (least squares on log apparent resistivity, "
+        f"IEEE Std 81 series): rho1 = {fit.rho1_ohm_m:.4g} ohm*m over rho2 = {fit.rho2_ohm_m:.4g} ohm*m below "
+        f"H = {fit.thickness_m:.3g} m; RMS misfit {fit.misfit_pct:.2g} %. A uniform model "
+        f"({fit.uniform_ohm_m:.4g} ohm*m) misfits by {fit.uniform_misfit_pct:.2g} %."
+    )
+    return [
+        Paragraph("Soil model fitted to Wenner readings", H2),
+        Paragraph(text, BODY),
+        Spacer(1, 4),
+        chart,
+        Spacer(1, 4),
+        _table(rows, [35 * mm, 40 * mm, 40 * mm, 35 * mm]),
     ]
 
 
@@ -257,6 +305,7 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story += title_block(results, input_name, sha256)
     story += summary(results)
     story += inputs(results)
+    story += soil_fit_section(results)
     story += notices(results)
     story += cautions()
     doc.build(story, canvasmaker=_NumberedCanvas)
