@@ -52,7 +52,8 @@ def main() -> None:
             cases.append((f"K = {k:+.1f}, H = {h:g} m", Soil("two-layer", rho1, h, rho1 * (1 + k) / (1 - k))))
     base = None
     print("Annex B Example 1 grid, 1540 segments of 1 m")
-    print(f"  {'case':<22s} {'solve [s]':>9s} {'ratio':>6s} {'all [s]':>8s} {'ratio':>6s} {'Rg [ohm]':>9s} {'terms':>6s}")
+    head = ("case", "solve [s]", "ratio", "all [s]", "ratio", "Rg [ohm]", "terms")
+    print("  {:<22s} {:>9s} {:>6s} {:>8s} {:>6s} {:>9s} {:>6s}".format(*head))
     for name, soil in cases:
         ts, ta, r, terms = timed(soil)
         if base is None:

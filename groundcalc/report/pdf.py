@@ -170,7 +170,8 @@ def inputs(results: Results) -> list:
     """Input data flowables."""
     d = results.design
     s = d.soil
-    soil_rows = [["Soil model", s.model]]
+    model = s.model + (" (fitted to the Wenner readings)" if results.soil_fit is not None else "")
+    soil_rows = [["Soil model", model]]
     soil_rows.append(["Upper resistivity", f"{s.rho1_ohm_m:g} ohm*m"])
     if s.model == "two-layer":
         soil_rows += [
