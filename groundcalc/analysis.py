@@ -15,6 +15,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .assembly import build_greens
+from .designcheck import ClosedForm, ConductorSizing, closed_form_check, conductor_sizing
 from .footprint import compute_footprint
 from .ieee80 import decrement_factor, grid_current_a
 from .model import Design, Notice
@@ -147,6 +148,8 @@ class Results:
     assessment: Assessment
     notices: tuple[Notice, ...] = field(default=())
     soil_fit: SoilFit | None = None
+    closed_form: ClosedForm | None = None
+    sizing: ConductorSizing | None = None
 
     @property
     def resistance_ohm(self) -> float:
@@ -188,12 +191,38 @@ def evaluate(
     ig = grid_current_a(f.fault_current_a, f.split_factor, df)
     gpr = ig * geometry.solution.resistance_ohm
     limits = tolerable_limits(design.soil, design.surface_layer, f)
-    result_assessment = assess(limits, field_result.touch.voltage_v * gpr, field_result.step.voltage_v * gpr)
+    sizing = conductor_sizing(design, df)
+    result_assessment = assess(limits, field_result.touch.voltage_v * gpr, field_result.step.voltage_v * gpr, sizing.ok)
+    closed = closed_form_check(design, field_result.raster.touch_area.footprint, ig)
+    extra: list[Notice] = []
+    if closed is not None:
+        extra += [Notice("closed-form-validity", w, "note") for w in closed.warnings]
+    groups: dict[tuple, list[str]] = {}
+    for item in sizing.undersized:
+        groups.setdefault(
+            (item.kind, item.material, round(item.area_mm2, 1), item.required_mm2, item.max_temp_c), []
+        ).append(item.label)
+    for (kind, mat, area, req, tm), labels in groups.items():
+        extra.append(
+            Notice(
+                "undersized-conductor",
+                f"{len(labels)} {kind}(s) of {mat}, {area:.0f} mm2, are smaller than the {req:.0f} mm2 needed to "
+                f"carry {sizing.current_a:,.0f} A for {sizing.duration_s:g} s without exceeding {tm:g} degC "
+                "(IEEE Std 80 Eq. 37): " + ", ".join(labels[:10]) + (" ..." if len(labels) > 10 else ""),
+            )
+        )
     soil_notes = tuple(Notice("image-series", t, "note") for t in geometry.solution.greens.notes)
     notices = (
-        design.notices + geometry.segmentation.notices + soil_notes + geometry.solution.notices + field_result.notices
+        design.notices
+        + geometry.segmentation.notices
+        + soil_notes
+        + geometry.solution.notices
+        + field_result.notices
+        + tuple(extra)
     )
-    return Results(design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices, soil_fit)
+    return Results(
+        design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices, soil_fit, closed, sizing
+    )
 
 
 def analyse(design: Design) -> Results:

@@ -70,7 +70,43 @@ def _summary_lines(results) -> list[str]:
         f"margin {a.step_margin_pct:+6.1f} %   {'PASS' if a.step_ok else 'FAIL'}   "
         f"from ({s.start_xy[0]:.2f}, {s.start_xy[1]:.2f}) to ({s.end_xy[0]:.2f}, {s.end_xy[1]:.2f}) m",
         f"Limits: {lim.basis}, Cs = {lim.cs:.4f}",
-        f"Overall: {'PASS' if a.passed else 'FAIL'} (governing: {a.governing})",
+    ]
+    if lim.touch_user or lim.step_user:
+        lines.append(
+            f"  (IEEE Std 80 values for comparison: touch {lim.ieee_touch_v:.1f} V, step {lim.ieee_step_v:.1f} V)"
+        )
+    sz = results.sizing
+    if sz is not None:
+        verdict = "PASS" if sz.ok else f"FAIL: {len(sz.undersized)} undersized (see warnings)"
+        lines.append(
+            f"Conductor sizing          : needs {sz.required_mm2:.1f} mm2 for {sz.current_a:,.0f} A, "
+            f"{sz.duration_s:g} s (IEEE Std 80 Eq. 37); smallest used {min(i.area_mm2 for i in sz.items):.1f} mm2"
+            f"   {verdict}"
+        )
+    lines.append(f"Overall: {'PASS' if a.passed else 'FAIL'} (governing: {a.governing})")
+    lines += closed_form_lines(results)
+    return lines
+
+
+def closed_form_lines(results) -> list[str]:
+    """IEEE Std 80 closed forms beside the numerical values."""
+    cf = results.closed_form
+    if cf is None:
+        return ["", "IEEE Std 80 closed forms: not applicable (the conductors enclose no area)."]
+
+    def row(name, num, unit, closed, label):
+        diff = 100.0 * (num - closed) / closed
+        return f"  {name:<18s} {num:10.4g} {unit:<4s} {closed:10.4g} {unit:<4s} {label:<20s} {diff:+7.1f} %"
+
+    lines = [
+        "",
+        "IEEE Std 80 closed forms - a sanity check with known limits; the numerical result is the design value:",
+        f"  {'':<18s} {'numerical':>15s} {'closed form':>15s} {'':<20s} {'diff.':>9s}",
+        row("Grid resistance", results.resistance_ohm, "ohm", cf.sverak_ohm, "Sverak Eq. 52"),
+        row("", results.resistance_ohm, "ohm", cf.schwarz_ohm, "Schwarz Eqs. 53-56"),
+        row("Touch / mesh", results.max_touch_v, "V", cf.mesh_voltage_v, "Em Eq. 80"),
+        row("Step", results.max_step_v, "V", cf.step_voltage_v, "Es Eq. 92"),
+        f"  (n = {cf.n:.2f}, Km = {cf.km:.3f}, Ki = {cf.ki:.3f}, Ks = {cf.ks:.3f}, D = {cf.layout.spacing_m:.2f} m)",
     ]
     return lines
 

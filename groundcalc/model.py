@@ -138,6 +138,14 @@ class Fault:
         50 or 70. [kg]
     frequency_hz : float
         System frequency. [Hz]
+    ambient_c : float
+        Ambient (soil) temperature for conductor sizing. [degC]
+    max_conductor_c : float or None
+        Largest allowed conductor temperature; ``None`` = the fusing
+        temperature of each material. [degC]
+    touch_limit_v, step_limit_v : float or None
+        User-defined tolerable voltages replacing those of IEEE Std 80 (for
+        jurisdictions that use another standard). [V]
     """
 
     fault_current_a: float
@@ -147,6 +155,10 @@ class Fault:
     shock_duration_s: float
     body_weight_kg: float
     frequency_hz: float
+    ambient_c: float = 40.0
+    max_conductor_c: float | None = None
+    touch_limit_v: float | None = None
+    step_limit_v: float | None = None
 
 
 @dataclass(frozen=True)
@@ -165,6 +177,8 @@ class Conductor:
         ``"conductor"`` or ``"rod"``.
     source : str
         Where it came from, e.g. ``"Conductors row 4"``.
+    material : str
+        Material name (:data:`groundcalc.materials.MATERIALS`).
     """
 
     label: str
@@ -173,6 +187,7 @@ class Conductor:
     diameter_m: float
     kind: str = "conductor"
     source: str = ""
+    material: str = "hard-drawn copper"
 
     @property
     def length_m(self) -> float:
@@ -191,6 +206,7 @@ class Rod:
     length_m: float
     diameter_m: float
     source: str = ""
+    material: str = "hard-drawn copper"
 
     def as_conductor(self) -> Conductor:
         """The rod as a vertical :class:`Conductor`."""
@@ -201,6 +217,7 @@ class Rod:
             diameter_m=self.diameter_m,
             kind="rod",
             source=self.source,
+            material=self.material,
         )
 
 
@@ -223,6 +240,7 @@ class GridSpec:
     depth_m: float
     diameter_m: float
     source: str = ""
+    material: str = "hard-drawn copper"
 
     def conductors(self) -> list[Conductor]:
         """Expand into straight conductors, one per grid line."""
@@ -236,6 +254,7 @@ class GridSpec:
                     end=(self.x0_m + self.length_x_m, y, self.depth_m),
                     diameter_m=self.diameter_m,
                     source=self.source,
+                    material=self.material,
                 )
             )
         for k in range(self.n_along_y):
@@ -247,6 +266,7 @@ class GridSpec:
                     end=(x, self.y0_m + self.length_y_m, self.depth_m),
                     diameter_m=self.diameter_m,
                     source=self.source,
+                    material=self.material,
                 )
             )
         return out

@@ -25,7 +25,9 @@ __all__ = [
     "atomic_write",
     "check_output",
     "file_sha256",
+    "closed_form_to_dict",
     "results_to_dict",
+    "sizing_to_dict",
     "soil_fit_to_dict",
     "write_design_with_soil",
     "write_json",
@@ -170,12 +172,110 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
         "cautions": [f"{h}: {t}" for h, t in CAUTIONS],
         "timings_s": {**results.geometry.seconds, "surface": results.field.seconds},
     }
+    out["conductors_ok"] = a.conductors_ok
+    out["touch_limit_basis"] = results.limits.touch_basis
+    out["step_limit_basis"] = results.limits.step_basis
+    out["ieee80_tolerable_touch_v"] = results.limits.ieee_touch_v
+    out["ieee80_tolerable_step_v"] = results.limits.ieee_step_v
+    out["closed_form"] = closed_form_to_dict(results)
+    out["conductor_sizing"] = sizing_to_dict(results.sizing)
     g = sol.greens
     out["soil"]["explicit_images"] = g.explicit_terms
     out["soil"]["series_tolerance"] = g.tolerance or None
     if results.soil_fit is not None:
         out["soil_fit"] = soil_fit_to_dict(results.soil_fit)
     return out
+
+
+def _diff_pct(numerical: float, closed: float) -> float:
+    return 100.0 * (numerical - closed) / closed
+
+
+def closed_form_to_dict(results: Results) -> dict[str, Any]:
+    """IEEE Std 80 closed forms beside the numerical values."""
+    cf = results.closed_form
+    sizing = results.sizing
+    out: dict[str, Any] = {
+        "note": "The method-of-moments solution is the design value; the IEEE Std 80 closed forms are a "
+        "sanity check with known limits (uniform soil, regular grids).",
+        "required_conductor_area_mm2": sizing.required_mm2 if sizing else None,
+    }
+    if cf is None:
+        out["available"] = False
+        out["reason"] = "the conductors enclose no area, so the grid equations do not apply"
+        return out
+    q = cf.layout
+    out.update(
+        {
+            "available": True,
+            "resistivity_used_ohm_m": cf.rho_ohm_m,
+            "sverak_resistance_ohm": cf.sverak_ohm,
+            "laurent_niemann_resistance_ohm": cf.laurent_niemann_ohm,
+            "schwarz_resistance_ohm": cf.schwarz_ohm,
+            "mesh_voltage_v": cf.mesh_voltage_v,
+            "step_voltage_v": cf.step_voltage_v,
+            "n": cf.n,
+            "na": cf.na,
+            "nb": cf.nb,
+            "nc": cf.nc,
+            "nd": cf.nd,
+            "km": cf.km,
+            "ki": cf.ki,
+            "ks": cf.ks,
+            "lm_m": cf.lm_m,
+            "ls_m": cf.ls_m,
+            "layout": {
+                "lc_m": q.lc_m,
+                "lr_m": q.lr_total_m,
+                "rod_count": q.rod_count,
+                "area_m2": q.area_m2,
+                "perimeter_m": q.perimeter_m,
+                "lx_m": q.length_x_m,
+                "ly_m": q.length_y_m,
+                "dm_m": q.max_distance_m,
+                "spacing_m": q.spacing_m,
+                "spacing_from": q.spacing_from,
+                "depth_m": q.depth_m,
+                "diameter_m": q.diameter_m,
+                "rods_on_perimeter": q.rods_on_perimeter,
+            },
+            "difference_pct": {
+                "resistance_vs_sverak": _diff_pct(results.resistance_ohm, cf.sverak_ohm),
+                "resistance_vs_schwarz": _diff_pct(results.resistance_ohm, cf.schwarz_ohm),
+                "touch_vs_mesh_voltage": _diff_pct(results.max_touch_v, cf.mesh_voltage_v),
+                "step_vs_step_voltage": _diff_pct(results.max_step_v, cf.step_voltage_v),
+            },
+            "warnings": list(cf.warnings),
+        }
+    )
+    return out
+
+
+def sizing_to_dict(sizing) -> dict[str, Any] | None:
+    """Conductor sizing (IEEE Std 80 Eq. 37) as a dictionary."""
+    if sizing is None:
+        return None
+    mats: dict[str, dict[str, float]] = {}
+    for i in sizing.items:
+        mats.setdefault(i.material, {"required_area_mm2": i.required_mm2, "max_temperature_c": i.max_temp_c})
+    return {
+        "current_a": sizing.current_a,
+        "duration_s": sizing.duration_s,
+        "ambient_c": sizing.ambient_c,
+        "ok": sizing.ok,
+        "by_material": mats,
+        "undersized": [
+            {
+                "label": i.label,
+                "kind": i.kind,
+                "material": i.material,
+                "area_mm2": i.area_mm2,
+                "required_mm2": i.required_mm2,
+            }
+            for i in sizing.undersized
+        ],
+        "smallest_area_mm2": min(i.area_mm2 for i in sizing.items),
+    }
 
 
 def soil_fit_to_dict(fit) -> dict[str, Any]:

@@ -28,6 +28,10 @@ class Limits:
         Shock duration. [s]
     basis : str
         Where the limits come from.
+    ieee_touch_v, ieee_step_v : float
+        The IEEE Std 80 values, shown beside user-defined limits. [V]
+    touch_user, step_user : bool
+        Whether each limit was entered by the user (not IEEE Std 80).
     """
 
     cs: float
@@ -37,6 +41,20 @@ class Limits:
     body_weight_kg: float
     shock_duration_s: float
     basis: str
+    ieee_touch_v: float = 0.0
+    ieee_step_v: float = 0.0
+    touch_user: bool = False
+    step_user: bool = False
+
+    @property
+    def touch_basis(self) -> str:
+        """Source of the touch limit, for outputs."""
+        return "user-defined (not IEEE Std 80)" if self.touch_user else "IEEE Std 80"
+
+    @property
+    def step_basis(self) -> str:
+        """Source of the step limit, for outputs."""
+        return "user-defined (not IEEE Std 80)" if self.step_user else "IEEE Std 80"
 
 
 def tolerable_limits(soil: Soil, surface: SurfaceLayer | None, fault: Fault) -> Limits:
@@ -49,7 +67,8 @@ def tolerable_limits(soil: Soil, surface: SurfaceLayer | None, fault: Fault) -> 
     surface : SurfaceLayer or None
         High-resistivity surface layer, if any.
     fault : Fault
-        Shock duration and body weight.
+        Shock duration, body weight, and any user-defined limits (which
+        replace the IEEE Std 80 values and are marked as such).
 
     Returns
     -------
@@ -67,14 +86,25 @@ def tolerable_limits(soil: Soil, surface: SurfaceLayer | None, fault: Fault) -> 
         cs = surface_layer_factor(soil.rho1_ohm_m, surface.rho_ohm_m, surface.thickness_m)
         rho_s = surface.rho_ohm_m
     args = (cs, rho_s, fault.shock_duration_s, fault.body_weight_kg)
+    touch, step = tolerable_touch_v(*args), tolerable_step_v(*args)
+    basis = f"IEEE Std 80, {fault.body_weight_kg:.0f} kg body, ts = {fault.shock_duration_s:g} s"
+    user_t, user_s = fault.touch_limit_v is not None, fault.step_limit_v is not None
+    if user_t and user_s:
+        basis = "user-defined limits (not IEEE Std 80)"
+    elif user_t or user_s:
+        basis = f"user-defined {'touch' if user_t else 'step'} limit (not IEEE Std 80); the other: " + basis
     return Limits(
         cs,
         rho_s,
-        tolerable_touch_v(*args),
-        tolerable_step_v(*args),
+        fault.touch_limit_v if user_t else touch,
+        fault.step_limit_v if user_s else step,
         fault.body_weight_kg,
         fault.shock_duration_s,
-        f"IEEE Std 80, {fault.body_weight_kg:.0f} kg body, ts = {fault.shock_duration_s:g} s",
+        basis,
+        touch,
+        step,
+        user_t,
+        user_s,
     )
 
 
@@ -89,6 +119,7 @@ class Assessment:
     limits: Limits
     touch_v: float
     step_v: float
+    conductors_ok: bool = True
 
     @property
     def touch_ok(self) -> bool:
@@ -102,8 +133,8 @@ class Assessment:
 
     @property
     def passed(self) -> bool:
-        """True when both criteria pass."""
-        return self.touch_ok and self.step_ok
+        """True when touch, step and conductor sizing all pass."""
+        return self.touch_ok and self.step_ok and self.conductors_ok
 
     @property
     def touch_margin_pct(self) -> float:
@@ -121,6 +152,6 @@ class Assessment:
         return "touch" if self.touch_margin_pct <= self.step_margin_pct else "step"
 
 
-def assess(limits: Limits, touch_v: float, step_v: float) -> Assessment:
-    """Compare computed touch and step voltages with the limits."""
-    return Assessment(limits, touch_v, step_v)
+def assess(limits: Limits, touch_v: float, step_v: float, conductors_ok: bool = True) -> Assessment:
+    """Compare computed touch and step voltages with the limits (and carry the sizing verdict)."""
+    return Assessment(limits, touch_v, step_v, conductors_ok)

@@ -204,6 +204,41 @@ FAULT = SheetSpec(
             "50 or 70 kg",
         ),
         Field("Frequency", "frequency", False, "positive", "System frequency. Blank = 60 Hz.", "50 or 60 Hz"),
+        Field(
+            "Ambient temperature",
+            "temperature",
+            False,
+            "",
+            "Ambient (soil) temperature Ta for the conductor sizing check. Blank = 40 degC.",
+            "10 to 40 degC",
+        ),
+        Field(
+            "Maximum conductor temperature",
+            "temperature",
+            False,
+            "positive",
+            "Largest temperature Tm the conductors and joints may reach during the fault. Blank = the "
+            "fusing temperature of each material (IEEE Std 80 Table 1); use 250 degC for bolted and "
+            "450 degC for brazed joints.",
+            "250 to 1083 degC",
+        ),
+        Field(
+            "Touch voltage limit",
+            "voltage",
+            False,
+            "positive",
+            "User-defined tolerable touch voltage, replacing the IEEE Std 80 value (for jurisdictions "
+            "that use another standard, e.g. IEC 60479 / EN 50522). Blank = IEEE Std 80.",
+            "50 to 2000 V",
+        ),
+        Field(
+            "Step voltage limit",
+            "voltage",
+            False,
+            "positive",
+            "User-defined tolerable step voltage, replacing the IEEE Std 80 value. Blank = IEEE Std 80.",
+            "100 to 5000 V",
+        ),
     ),
     "Fault current and the exposure data for the tolerable voltages (IEEE Std 80).",
     required=True,
@@ -229,6 +264,13 @@ CONDUCTORS = SheetSpec(
             "8 to 20 mm (e.g. 120 mm2 stranded copper is about 14 mm)",
             unit="mm",
         ),
+        Field(
+            "Material",
+            "material",
+            help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
+            "mass of metal. Blank = hard-drawn copper.",
+            typical="hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ...",
+        ),
     ),
     "One row per straight buried bare conductor. Conductors that cross or touch are joined.",
 )
@@ -250,6 +292,13 @@ RODS = SheetSpec(
         ),
         Field("Length", _LEN, True, "positive", "Driven length of the rod.", "2.4 to 30 m"),
         Field("Diameter", _LEN, True, "positive", "Rod diameter.", "12 to 25 mm", unit="mm"),
+        Field(
+            "Material",
+            "material",
+            help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
+            "mass of metal. Blank = hard-drawn copper.",
+            typical="copper-clad steel rod 20%, zinc-coated steel rod, stainless-clad steel rod, ...",
+        ),
     ),
     "One row per driven vertical rod.",
 )
@@ -281,6 +330,13 @@ GRIDS = SheetSpec(
         ),
         Field("Depth", _LEN, True, "positive", "Burial depth of the grid.", "0.3 to 1.5 m"),
         Field("Diameter", _LEN, True, "positive", "Conductor diameter.", "8 to 20 mm", unit="mm"),
+        Field(
+            "Material",
+            "material",
+            help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
+            "mass of metal. Blank = hard-drawn copper.",
+            typical="hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ...",
+        ),
     ),
     "Optional generator of rectangular grids with equal mesh spacing. Each row adds its grid lines to the conductors.",
 )

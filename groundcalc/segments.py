@@ -10,7 +10,7 @@ constant leakage per segment breaks down below that.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -188,7 +188,7 @@ def move_off_interface(
     for c in conductors:
         if abs(c.start[2] - h) <= 1e-6 and abs(c.end[2] - h) <= 1e-6:
             z = h - delta
-            c = Conductor(c.label, (c.start[0], c.start[1], z), (c.end[0], c.end[1], z), c.diameter_m, c.kind, c.source)
+            c = replace(c, start=(c.start[0], c.start[1], z), end=(c.end[0], c.end[1], z))
             moved.append(c.label)
         out.append(c)
     notices = ()

@@ -19,6 +19,7 @@ import openpyxl
 from openpyxl.utils import get_column_letter
 
 from .errors import InputError
+from .materials import DEFAULT_MATERIAL, MATERIALS, material
 from .model import (
     Conductor,
     Design,
@@ -358,6 +359,17 @@ def value(cells: dict[str, Cell], field: Field, default: Any = None) -> Any:
         return default
     if field.kind == "text":
         return str(cell.value).strip()
+    if field.kind == "material":
+        mat = material(str(cell.value))
+        if mat is None:
+            raise InputError(
+                f"'{cell.value}' is not a known conductor material",
+                sheet=cell.sheet,
+                row=cell.row,
+                column=cell.column,
+                fix="Use one of: " + ", ".join(MATERIALS) + " (or leave blank for hard-drawn copper)",
+            )
+        return mat.name
     if field.kind == "choice":
         text = normalise_name(str(cell.value)).replace("_", "-")
         text = {"two layer": "two-layer", "2-layer": "two-layer", "twolayer": "two-layer", "2 layer": "two-layer"}.get(
@@ -540,7 +552,61 @@ def _read_fault(wb, notices: list[Notice]) -> Fault:
                 "formula of IEEE Std 80 (clause 5.2); the tolerable voltages are extrapolated.",
             )
         )
-    return Fault(i0, sf, xr, tf, ts, float(round(weight)), freq)
+    ambient = value(cells, f["ambient temperature"])
+    if ambient is None:
+        ambient = 40.0
+    tmax = value(cells, f["maximum conductor temperature"])
+    if tmax is not None and tmax <= ambient:
+        c = cells[f["maximum conductor temperature"].key]
+        raise InputError(
+            f"the maximum conductor temperature {tmax:g} degC is not above the ambient temperature {ambient:g} degC",
+            sheet=c.sheet,
+            row=c.row,
+            column=c.column,
+            fix="Enter the largest temperature the conductors and joints may reach, e.g. 250 degC for bolted joints",
+        )
+    limits = {}
+    for key in ("touch voltage limit", "step voltage limit"):
+        limits[key] = value(cells, f[key])
+        if limits[key] is not None:
+            notices.append(
+                Notice(
+                    "user-limit",
+                    f"{f[key].name} {limits[key]:g} V is user-defined and replaces the IEEE Std 80 value.",
+                )
+            )
+    return Fault(
+        i0,
+        sf,
+        xr,
+        tf,
+        ts,
+        float(round(weight)),
+        freq,
+        ambient,
+        tmax,
+        limits["touch voltage limit"],
+        limits["step voltage limit"],
+    )
+
+
+def _check_temperature(wb, fault: Fault, materials: set[str]) -> None:
+    """The maximum conductor temperature must not exceed any material's fusing temperature."""
+    if fault.max_conductor_c is None:
+        return
+    for name in sorted(materials):
+        mat = MATERIALS[name]
+        if fault.max_conductor_c > mat.fusing_c:
+            cells = read_keyvalue(wb, FAULT)
+            c = cells["maximum conductor temperature"]
+            raise InputError(
+                f"the maximum conductor temperature {fault.max_conductor_c:g} degC is above the fusing "
+                f"temperature of {name} ({mat.fusing_c:g} degC)",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix=f"Enter at most {mat.fusing_c:g} degC, or leave blank to use each material's fusing temperature",
+            )
 
 
 def _read_settings(wb) -> Settings:
@@ -582,7 +648,8 @@ def _read_conductors(wb) -> list[Conductor]:
         label = value(cells, f["label"]) or f"C{row}"
         start = (v["x1"], v["y1"], v["depth1"])
         end = (v["x2"], v["y2"], v["depth2"])
-        cond = Conductor(label, start, end, v["diameter"], "conductor", f"{CONDUCTORS.name} row {row}")
+        mat = value(cells, f["material"]) or DEFAULT_MATERIAL
+        cond = Conductor(label, start, end, v["diameter"], "conductor", f"{CONDUCTORS.name} row {row}", mat)
         if cond.length_m < 1e-6:
             raise InputError(
                 "the conductor has zero length (both ends are the same point)",
@@ -602,7 +669,10 @@ def _read_rods(wb) -> list[Rod]:
         row = _row_of(cells)
         v = {k: _required(cells, RODS, f[k], row) for k in f if f[k].required}
         label = value(cells, f["label"]) or f"R{row}"
-        out.append(Rod(label, v["x"], v["y"], v["top depth"], v["length"], v["diameter"], f"{RODS.name} row {row}"))
+        mat = value(cells, f["material"]) or DEFAULT_MATERIAL
+        out.append(
+            Rod(label, v["x"], v["y"], v["top depth"], v["length"], v["diameter"], f"{RODS.name} row {row}", mat)
+        )
     return out
 
 
@@ -635,6 +705,7 @@ def _read_grids(wb) -> list[GridSpec]:
                 v["depth"],
                 v["diameter"],
                 f"{GRIDS.name} row {row}",
+                value(cells, f["material"]) or DEFAULT_MATERIAL,
             )
         )
     return out
@@ -752,6 +823,9 @@ def read_design(path: str | Path) -> Design:
         conductors = _read_conductors(wb)
         rods = _read_rods(wb)
         grids = _read_grids(wb)
+        _check_temperature(
+            wb, fault, {c.material for c in conductors} | {r.material for r in rods} | {g.material for g in grids}
+        )
         wenner = _read_wenner(wb) if soil.model == "fitted" else None
         if soil.model == "fitted" and wenner is None:
             raise InputError(

@@ -172,7 +172,7 @@ BAD = [
     (
         "unknown-quantity",
         lambda wb: wb["Fault"].append(["Fault curent [A]", 5]),
-        ["sheet 'Fault'", "row 9", "not a known quantity"],
+        ["sheet 'Fault'", "row 13", "not a known quantity"],
     ),
     ("bad-model", _set("Soil", "B2", "three-layer"), ["sheet 'Soil'", "row 2", "Valid values: uniform, two-layer"]),
     ("body-weight", _set("Fault", "B7", 80), ["sheet 'Fault'", "row 7", "50 or 70"]),
