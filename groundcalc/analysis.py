@@ -206,7 +206,7 @@ def evaluate(
         extra.append(
             Notice(
                 "undersized-conductor",
-                f"{len(labels)} {kind}(s) of {mat}, {area:.0f} mm2, are smaller than the {req:.0f} mm2 needed to "
+                f"{len(labels)} {kind}(s) of {mat}, {area:.1f} mm2, are smaller than the {req:.1f} mm2 needed to "
                 f"carry {sizing.current_a:,.0f} A for {sizing.duration_s:g} s without exceeding {tm:g} degC "
                 "(IEEE Std 80 Eq. 37): " + ", ".join(labels[:10]) + (" ..." if len(labels) > 10 else ""),
             )

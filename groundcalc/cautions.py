@@ -17,7 +17,14 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
     (
         "Standards and local codes govern",
         "IEEE Std 80 and the standards, codes and utility rules that apply where the substation "
-        "is built take precedence over this program.",
+        "is built take precedence over this program. User-entered limits replace IEEE Std 80 and "
+        "are labelled user-defined.",
+    ),
+    (
+        "Closed forms and conductor sizing are checks, not the design",
+        "The IEEE Std 80 closed forms assume uniform soil and regular grids; the numerical result is "
+        "the design value. Sizing assumes a solid round conductor carrying Df x 3I0 for the fault "
+        "duration; stranding, joints, corrosion and mechanical strength are the engineer's to check.",
     ),
     (
         "Model assumptions",

@@ -90,24 +90,25 @@ def _summary_lines(results) -> list[str]:
 
 def closed_form_lines(results) -> list[str]:
     """IEEE Std 80 closed forms beside the numerical values."""
+    from .outputs import CLOSED_FORM_NOTE, closed_form_rows
+
     cf = results.closed_form
     if cf is None:
         return ["", "IEEE Std 80 closed forms: not applicable (the conductors enclose no area)."]
-
-    def row(name, num, unit, closed, label):
-        diff = 100.0 * (num - closed) / closed
-        return f"  {name:<18s} {num:10.4g} {unit:<4s} {closed:10.4g} {unit:<4s} {label:<20s} {diff:+7.1f} %"
-
     lines = [
         "",
-        "IEEE Std 80 closed forms - a sanity check with known limits; the numerical result is the design value:",
-        f"  {'':<18s} {'numerical':>15s} {'closed form':>15s} {'':<20s} {'diff.':>9s}",
-        row("Grid resistance", results.resistance_ohm, "ohm", cf.sverak_ohm, "Sverak Eq. 52"),
-        row("", results.resistance_ohm, "ohm", cf.schwarz_ohm, "Schwarz Eqs. 53-56"),
-        row("Touch / mesh", results.max_touch_v, "V", cf.mesh_voltage_v, "Em Eq. 80"),
-        row("Step", results.max_step_v, "V", cf.step_voltage_v, "Es Eq. 92"),
-        f"  (n = {cf.n:.2f}, Km = {cf.km:.3f}, Ki = {cf.ki:.3f}, Ks = {cf.ks:.3f}, D = {cf.layout.spacing_m:.2f} m)",
+        "IEEE Std 80 closed forms beside the numerical result:",
+        f"  {'':<20s} {'numerical':>15s} {'closed form':>15s}  {'':<23s} {'diff.':>8s}",
     ]
+    last = ""
+    for q, num, unit, closed, eq, diff in closed_form_rows(results):
+        name, last = ("" if q == last else q), q
+        spec = "10.4g" if unit == "ohm" else "10.1f"
+        lines.append(f"  {name:<20s} {num:{spec}} {unit:<4s} {closed:{spec}} {unit:<4s}  {eq:<23s} {diff:+7.1f} %")
+    lines.append(
+        f"  (n = {cf.n:.2f}, Km = {cf.km:.3f}, Ki = {cf.ki:.3f}, Ks = {cf.ks:.3f}, D = {cf.layout.spacing_m:.2f} m)"
+    )
+    lines += ["  " + t for t in textwrap.wrap(CLOSED_FORM_NOTE, 96)]
     return lines
 
 

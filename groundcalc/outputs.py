@@ -191,13 +191,37 @@ def _diff_pct(numerical: float, closed: float) -> float:
     return 100.0 * (numerical - closed) / closed
 
 
+#: Statement shown with every closed-form comparison (CLI, JSON, PDF).
+CLOSED_FORM_NOTE = (
+    "The method-of-moments solution is the design value; the IEEE Std 80 closed forms are a "
+    "sanity check with known limits (uniform soil, regular grids)."
+)
+
+
+def closed_form_rows(results: Results) -> list[tuple[str, float, str, float, str, float]]:
+    """Rows (quantity, numerical, unit, closed form, equation, difference %) of the comparison.
+
+    Empty when the closed forms do not apply (no enclosed area).
+    """
+    cf = results.closed_form
+    if cf is None:
+        return []
+    rows = [
+        ("Grid resistance", results.resistance_ohm, "ohm", cf.sverak_ohm, "Sverak, Eq. 52"),
+        ("Grid resistance", results.resistance_ohm, "ohm", cf.schwarz_ohm, "Schwarz, Eqs. 53-56"),
+        ("Grid resistance", results.resistance_ohm, "ohm", cf.laurent_niemann_ohm, "Laurent-Niemann, Eq. 51"),
+        ("Touch / mesh voltage", results.max_touch_v, "V", cf.mesh_voltage_v, "Em, Eq. 80"),
+        ("Step voltage", results.max_step_v, "V", cf.step_voltage_v, "Es, Eq. 92"),
+    ]
+    return [(q, num, u, c, eq, _diff_pct(num, c)) for q, num, u, c, eq in rows]
+
+
 def closed_form_to_dict(results: Results) -> dict[str, Any]:
     """IEEE Std 80 closed forms beside the numerical values."""
     cf = results.closed_form
     sizing = results.sizing
     out: dict[str, Any] = {
-        "note": "The method-of-moments solution is the design value; the IEEE Std 80 closed forms are a "
-        "sanity check with known limits (uniform soil, regular grids).",
+        "note": CLOSED_FORM_NOTE,
         "required_conductor_area_mm2": sizing.required_mm2 if sizing else None,
     }
     if cf is None:
@@ -242,6 +266,7 @@ def closed_form_to_dict(results: Results) -> dict[str, Any]:
             "difference_pct": {
                 "resistance_vs_sverak": _diff_pct(results.resistance_ohm, cf.sverak_ohm),
                 "resistance_vs_schwarz": _diff_pct(results.resistance_ohm, cf.schwarz_ohm),
+                "resistance_vs_laurent_niemann": _diff_pct(results.resistance_ohm, cf.laurent_niemann_ohm),
                 "touch_vs_mesh_voltage": _diff_pct(results.max_touch_v, cf.mesh_voltage_v),
                 "step_vs_step_voltage": _diff_pct(results.max_step_v, cf.step_voltage_v),
             },

@@ -161,3 +161,75 @@ def test_run_with_fitted_soil_reports_the_fit(tmp_path):
 
     text = "".join(p.extract_text() for p in PdfReader(tmp_path / "r.pdf").pages)
     assert "Soil model fitted to Wenner readings" in text and "Image terms" in text
+
+
+def test_closed_forms_beside_numerical_in_json_cli_and_pdf(example_run, capsys):
+    # IEEE Std 80-2000 Eqs. (51)-(56), (80), (92): the JSON carries the closed forms, and its differences
+    # are (numerical - closed) / closed. The PDF states which one is the design value.
+    _, out, d = example_run
+    cf = d["closed_form"]
+    for k in ("sverak_resistance_ohm", "schwarz_resistance_ohm", "mesh_voltage_v", "step_voltage_v"):
+        assert cf[k] > 0
+    by_material = d["conductor_sizing"]["by_material"]
+    assert cf["required_conductor_area_mm2"] == pytest.approx(by_material["hard-drawn copper"]["required_area_mm2"])
+    diff = cf["difference_pct"]
+    assert diff["resistance_vs_sverak"] == pytest.approx(
+        100 * (d["grid_resistance_ohm"] - cf["sverak_resistance_ohm"]) / cf["sverak_resistance_ohm"]
+    )
+    assert diff["touch_vs_mesh_voltage"] == pytest.approx(
+        100 * (d["max_touch_v"] - cf["mesh_voltage_v"]) / cf["mesh_voltage_v"]
+    )
+    assert "design value" in cf["note"]
+    from pypdf import PdfReader
+
+    text = " ".join(p.extract_text() for p in PdfReader(out / "r.pdf").pages)
+    assert "closed forms beside the numerical result" in text
+    assert f"{cf['sverak_resistance_ohm']:.4g} ohm" in text
+    assert f"{cf['mesh_voltage_v']:,.1f} V" in text
+    assert "Conductor sizing" in text and "Eq. 37" in text
+
+
+def test_user_limits_and_undersized_conductor(tmp_path, capsys):
+    # A user-entered limit (for a jurisdiction using another standard) replaces the IEEE Std 80 value and
+    # is labelled as user-defined everywhere; a 2 mm conductor (3.1 mm2) cannot carry 3.18 kA for 0.5 s
+    # (IEEE Std 80 Eq. 37 needs about 8 mm2 of hard-drawn copper), so the design fails naming it.
+    from .conftest import write_workbook
+
+    fault = {
+        "Fault current [A]": 3180,
+        "Split factor": 0.6,
+        "X/R ratio": 0,
+        "Fault duration [s]": 0.5,
+        "Body weight [kg]": 70,
+        "Frequency [Hz]": 60,
+        "Touch voltage limit [V]": 2000,
+    }
+    p = write_workbook(
+        tmp_path / "d.xlsx",
+        fault=fault,
+        grids=[["G", 0, 0, 20, 20, 3, 3, 0.5, 10]],
+        conductors=[["TAIL-7", 20, 10, 0.5, 26, 10, 0.5, 2, "annealed copper"]],
+    )
+    code = main(["run", str(p), "--json", str(tmp_path / "r.json"), "--report", str(tmp_path / "r.pdf"), "--quiet"])
+    assert code == 0
+    text = capsys.readouterr().out
+    d = json.loads((tmp_path / "r.json").read_text())
+    assert d["tolerable_touch_v"] == 2000
+    assert d["touch_limit_basis"].startswith("user-defined")
+    assert d["step_limit_basis"] == "IEEE Std 80"
+    assert d["ieee80_tolerable_touch_v"] < 2000
+    assert d["tolerable_step_v"] == pytest.approx(d["ieee80_tolerable_step_v"])
+    assert "user-defined touch limit" in text
+    assert d["conductors_ok"] is False and d["passed"] is False
+    bad = d["conductor_sizing"]["undersized"]
+    assert [b["label"] for b in bad] == ["TAIL-7"]
+    # Eq. (42) with Table 2's Kf = 7.00 for annealed copper [mem]: A = 3.18 kA x 7.00 x sqrt(0.5 s) kcmil
+    assert bad[0]["required_mm2"] == pytest.approx(3.18 * 7.00 * 0.5**0.5 / 1.9735, rel=2e-3)
+    assert bad[0]["area_mm2"] == pytest.approx(3.14159, rel=1e-4)
+    assert any(w["code"] == "undersized-conductor" and "TAIL-7" in w["message"] for w in d["warnings"])
+    assert "FAIL" in text and "undersized" in text
+    from pypdf import PdfReader
+
+    pdf = " ".join(" ".join(pg.extract_text().split()) for pg in PdfReader(tmp_path / "r.pdf").pages)
+    assert "User-defined limits replace IEEE Std 80" in pdf
+    assert "Undersized (annealed copper): TAIL-7" in pdf

@@ -189,6 +189,26 @@ BAD = [
         ["sheet 'Grids'", "row 2", "not a number"],
     ),
     ("segment-too-long", _set("Settings", "B2", 50), ["sheet 'Settings'", "row 2", "at most 5 m"]),
+    (
+        "unknown-material",
+        _set("Grids", "J2", "brass"),
+        ["sheet 'Grids'", "row 2", "'Material' (J)", "not a known conductor material", "hard-drawn copper"],
+    ),
+    (
+        "max-temp-below-ambient",
+        lambda wb: (wb["Fault"].__setitem__("B9", 40), wb["Fault"].__setitem__("B10", 30)),
+        ["sheet 'Fault'", "row 10", "not above the ambient temperature 40 degC"],
+    ),
+    (
+        # IEEE Std 80-2000 Table 1: zinc-coated steel rod fuses at 419 degC [mem]
+        "max-temp-above-fusing",
+        lambda wb: (
+            wb["Rods"].append(["R1", 0, 0, 0.5, 3, 16, "zinc-coated steel rod"]),
+            wb["Fault"].__setitem__("B10", 450),
+        ),
+        ["sheet 'Fault'", "row 10", "above the fusing temperature of zinc-coated steel rod (419 degC)"],
+    ),
+    ("negative-touch-limit", _set("Fault", "B11", -100), ["sheet 'Fault'", "row 11", "greater than zero"]),
 ]
 
 

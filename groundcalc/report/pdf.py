@@ -17,6 +17,7 @@ from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Space
 from .. import __version__
 from ..analysis import Results
 from ..cautions import CAUTIONS, DRAFT_MARK
+from ..outputs import CLOSED_FORM_NOTE, closed_form_rows
 from .charts import Series, line_chart
 
 __all__ = ["write_report"]
@@ -120,22 +121,40 @@ def summary(results: Results) -> list:
         f"{min(a.touch_margin_pct, a.step_margin_pct):+.1f} %)"
     )
     rows = [
-        ["Criterion", "Computed [V]", "Tolerable [V]", "Margin [%]", "Result"],
+        ["Criterion", "Computed", "Tolerable", "Margin [%]", "Result"],
         [
-            "Touch voltage",
+            "Touch voltage [V]",
             _fmt(results.max_touch_v),
             _fmt(lim.touch_v),
             f"{a.touch_margin_pct:+.1f}",
             Paragraph(_verdict(a.touch_ok), BODY),
         ],
         [
-            "Step voltage",
+            "Step voltage [V]",
             _fmt(results.max_step_v),
             _fmt(lim.step_v),
             f"{a.step_margin_pct:+.1f}",
             Paragraph(_verdict(a.step_ok), BODY),
         ],
     ]
+    sz = results.sizing
+    if sz is not None:
+        smallest = min(i.area_mm2 for i in sz.items)
+        rows.append(
+            [
+                "Conductor section [mm2]",
+                f"{smallest:.1f}",
+                f"at least {sz.required_mm2:.1f}",
+                f"{100.0 * (smallest - sz.required_mm2) / smallest:+.1f}",
+                Paragraph(_verdict(sz.ok), BODY),
+            ]
+        )
+    basis = f"Tolerable voltages: {lim.basis}, Cs = {lim.cs:.4f}."
+    if lim.touch_user or lim.step_user:
+        basis += (
+            f" <b>User-defined limits replace IEEE Std 80</b> (IEEE Std 80 values: touch {lim.ieee_touch_v:.1f} V, "
+            f"step {lim.ieee_step_v:.1f} V)."
+        )
     key = [
         ["Quantity", "Value"],
         ["Grid resistance Rg", f"{results.resistance_ohm:.4g} ohm"],
@@ -148,17 +167,19 @@ def summary(results: Results) -> list:
         ],
     ]
     advice = (
-        "The design meets the IEEE Std 80 touch and step criteria for the stated data."
+        "The design meets the touch, step and conductor-sizing criteria for the stated data."
         if a.passed
         else "The design does not meet the criteria. Options: more conductors or closer spacing "
         "where the worst point lies, rods on the perimeter, a thicker or more resistive surface "
-        "layer, a deeper or larger grid, or a lower fault current or faster clearing."
+        "layer, a deeper or larger grid, or a lower fault current or faster clearing; undersized "
+        "conductors need a larger cross-section or a better material."
     )
     return [
         Paragraph("Summary", H2),
         Paragraph(verdict, VERDICT),
         Spacer(1, 4),
         _table(rows, [40 * mm, 30 * mm, 30 * mm, 25 * mm, 25 * mm]),
+        Paragraph(basis, SMALL),
         Spacer(1, 6),
         _table(key, [70 * mm, 80 * mm]),
         Spacer(1, 4),
@@ -259,6 +280,69 @@ def soil_fit_section(results: Results) -> list:
     ]
 
 
+def closed_form_section(results: Results) -> list:
+    """IEEE Std 80 closed forms beside the numerical values."""
+    cf = results.closed_form
+    items = [Paragraph("IEEE Std 80 closed forms beside the numerical result", H2)]
+    if cf is None:
+        return items + [Paragraph("Not applicable: the conductors enclose no area.", BODY)]
+    rows = [["Quantity", "Numerical", "Closed form", "Equation (IEEE Std 80-2000)", "Difference"]]
+    last = ""
+    for q, num, unit, closed, eq, diff in closed_form_rows(results):
+        spec = ".4g" if unit == "ohm" else ",.1f"
+        rows.append(["" if q == last else q, f"{num:{spec}} {unit}", f"{closed:{spec}} {unit}", eq, f"{diff:+.1f} %"])
+        last = q
+    t = _table(rows, [40 * mm, 27 * mm, 27 * mm, 50 * mm, 24 * mm])
+    t.setStyle(TableStyle([("ALIGN", (3, 0), (3, -1), "LEFT")]))
+    q = cf.layout
+    factors = (
+        f"Layout as the equations see it: LC = {q.lc_m:,.1f} m, LR = {q.lr_total_m:,.1f} m ({q.rod_count} rods"
+        f"{', on the perimeter' if q.rods_on_perimeter else ''}), A = {q.area_m2:,.0f} m2, "
+        f"Lp = {q.perimeter_m:,.1f} m, "
+        f"D = {q.spacing_m:.2f} m ({q.spacing_from}), h = {q.depth_m:.2f} m, d = {q.diameter_m * 1000:.1f} mm, "
+        f"rho = {cf.rho_ohm_m:g} ohm*m. n = {cf.n:.2f} (na {cf.na:.2f}, nb {cf.nb:.3f}, nc {cf.nc:.3f}, "
+        f"nd {cf.nd:.3f}), Km = {cf.km:.3f}, Ki = {cf.ki:.3f}, Ks = {cf.ks:.3f}, LM = {cf.lm_m:,.1f} m, "
+        f"LS = {cf.ls_m:,.1f} m."
+    )
+    items += [Paragraph(f"<b>{CLOSED_FORM_NOTE}</b>", BODY), Spacer(1, 3), t, Spacer(1, 3), Paragraph(factors, SMALL)]
+    for w in cf.warnings:
+        items.append(Paragraph(f"<b>Limit:</b> {w}", SMALL))
+    return [KeepTogether(items)]
+
+
+def sizing_section(results: Results) -> list:
+    """Conductor sizing against the fault current (IEEE Std 80 Eq. 37)."""
+    sz = results.sizing
+    if sz is None:
+        return []
+    mats: dict[str, list] = {}
+    for i in sz.items:
+        m = mats.setdefault(i.material, [i.required_mm2, i.max_temp_c, np.inf, 0, []])
+        m[2] = min(m[2], i.area_mm2)
+        m[3] += 1
+        if not i.ok:
+            m[4].append(i.label)
+    rows = [["Material", "Items", "Tm [degC]", "Needed [mm2]", "Smallest [mm2]", "Result"]]
+    for name, (req, tm, small, count, bad) in mats.items():
+        rows.append([name, str(count), f"{tm:g}", f"{req:.1f}", f"{small:.1f}", Paragraph(_verdict(not bad), BODY)])
+    text = (
+        f"Each conductor and rod is checked for the asymmetrical fault current Df x 3I0 = {sz.current_a:,.0f} A "
+        f"for the fault duration {sz.duration_s:g} s, from an ambient {sz.ambient_c:g} degC (IEEE Std 80-2000 "
+        "clause 11.3, Eq. 37, material constants of Table 1). The section is that of a solid round conductor of "
+        "the entered diameter."
+    )
+    items = [Paragraph("Conductor sizing", H2), Paragraph(text, BODY), Spacer(1, 3)]
+    items.append(_table(rows, [55 * mm, 15 * mm, 22 * mm, 27 * mm, 27 * mm, 20 * mm]))
+    for name, (_, _, _, _, bad) in mats.items():
+        if bad:
+            items.append(
+                Paragraph(
+                    f"<b>Undersized ({name}):</b> " + ", ".join(bad[:40]) + (" ..." if len(bad) > 40 else ""), BODY
+                )
+            )
+    return [KeepTogether(items)]
+
+
 def notices(results: Results) -> list:
     """Warnings and notes flowables."""
     if not results.notices:
@@ -307,6 +391,8 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story += summary(results)
     story += inputs(results)
     story += soil_fit_section(results)
+    story += closed_form_section(results)
+    story += sizing_section(results)
     story += notices(results)
     story += cautions()
     doc.build(story, canvasmaker=_NumberedCanvas)
