@@ -165,6 +165,7 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
         "settings": {
             "segment_length_m": d.settings.segment_length_m,
             "raster_spacing_m": results.field.raster.spacing_m,
+            "raster_points": [len(results.field.raster.x), len(results.field.raster.y)],
             "margin_m": d.settings.margin_m,
             "linear_solver": sol.method,
         },

@@ -68,8 +68,10 @@ def nice_ticks(lo: float, hi: float, log: bool = False, target: int = 6) -> list
 def _fmt(v: float) -> str:
     if v == 0:
         return "0"
-    if abs(v) >= 1e4 or abs(v) < 1e-2:
-        return f"{v:.0e}".replace("e+0", "e").replace("e-0", "e-")
+    if abs(v) >= 1e4:
+        return f"{v:,.0f}"
+    if abs(v) < 1e-2:
+        return f"{v:.3g}"
     return f"{v:g}"
 
 

@@ -12,13 +12,14 @@ from reportlab.lib.pagesizes import A4
 from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
 from reportlab.lib.units import mm
 from reportlab.pdfgen import canvas as _canvas
-from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
+from reportlab.platypus import KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 
 from .. import __version__
 from ..analysis import Results
 from ..cautions import CAUTIONS, DRAFT_MARK
 from ..outputs import CLOSED_FORM_NOTE, closed_form_rows
 from .charts import Series, line_chart
+from .figures import leakage_figure, plan_figure, potential_figure, step_profile, touch_figure, touch_profile
 
 __all__ = ["write_report"]
 
@@ -353,6 +354,63 @@ def notices(results: Results) -> list:
     return items
 
 
+#: Documents the report relies on, by number and edition.
+REFERENCES = (
+    "IEEE Std 80-2013, IEEE Guide for Safety in AC Substation Grounding (equation numbers in this report "
+    "follow IEEE Std 80-2000; the 2013 edition numbers clauses 14 to 16 five higher).",
+    "IEEE Std 81-2012, IEEE Guide for Measuring Earth Resistivity, Ground Impedance, and Earth Surface "
+    "Potentials of a Grounding System (Wenner method, two-layer apparent resistivity).",
+    "H. B. Dwight, Calculation of resistances to ground, AIEE Transactions 55, 1936.",
+    "S. J. Schwarz, Analytical expressions for the resistance of grounding systems, AIEE Transactions 73, 1954.",
+    "E. D. Sunde, Earth Conduction Effects in Transmission Systems, Van Nostrand 1949 (Dover 1968).",
+    "G. F. Tagg, Earth Resistances, Newnes 1964 (image series in layered soil).",
+    "R. F. Harrington, Field Computation by Moment Methods, Macmillan 1968 (method of moments).",
+    "CIE 15:2004 Colorimetry (CIELAB lightness of the colour scale).",
+)
+
+
+def figures_section(results: Results) -> list:
+    """Plan, colour maps, profiles and leakage density."""
+
+    def headed(title: str | None, flowables: list) -> list:
+        # one figure, its caption and its heading stay on one page
+        return [KeepTogether(([Paragraph(title, H2)] if title else []) + flowables)]
+
+    out: list = headed("Layout", plan_figure(results, SMALL, max_height=90 * mm))
+    out += headed("Earth-surface potential", potential_figure(results, SMALL, max_height=100 * mm))
+    out += headed("Touch voltage", touch_figure(results, SMALL, max_height=100 * mm))
+    out += headed("Profiles through the worst points", touch_profile(results, SMALL))
+    out += [Spacer(1, 6)]
+    out += headed(None, step_profile(results, SMALL))
+    out += headed("Leakage current along the conductors", leakage_figure(results, SMALL))
+    return out
+
+
+def assumptions(results: Results) -> list:
+    """Assumptions and limitations that apply to this run."""
+    d = results.design
+    sol = results.geometry.solution
+    items = [
+        f"The {len(sol.segments)} segments (target length {d.settings.segment_length_m:g} m) each carry a "
+        "constant leakage current per metre; the conductors are thin wires at one potential (the GPR), "
+        "with no conductor impedance.",
+        f"Soil: {sol.greens.description}. Real soil varies sideways and with season.",
+        f"Surface potential on a {results.field.raster.spacing_m:g} m raster over the grid and a "
+        f"{d.settings.margin_m:g} m margin; the worst points are refined by a local search, but a peak narrower "
+        "than the raster can be missed.",
+        f"Touch voltage is assessed over the {results.field.raster.touch_area.description}; metal outside it "
+        "(fences, gates) needs its own check. Step voltage is assessed over the raster.",
+        "Power frequency only; no transferred potentials, no other buried metal.",
+        "The IEEE Std 80 closed forms are a sanity check only: they assume uniform soil and regular grids.",
+    ]
+    return [KeepTogether([Paragraph("Assumptions and limitations", H2)] + [Paragraph(f"- {t}", BODY) for t in items])]
+
+
+def references() -> list:
+    """References flowables."""
+    return [Paragraph("References", H2)] + [Paragraph(f"[{k}] {t}", SMALL) for k, t in enumerate(REFERENCES, start=1)]
+
+
 def cautions() -> list:
     """Cautions flowables."""
     items = [Paragraph("Cautions", H2)]
@@ -389,10 +447,15 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story = []
     story += title_block(results, input_name, sha256)
     story += summary(results)
+    story += [PageBreak()]
     story += inputs(results)
     story += soil_fit_section(results)
+    story += [PageBreak()]
+    story += figures_section(results)
     story += closed_form_section(results)
     story += sizing_section(results)
     story += notices(results)
+    story += assumptions(results)
     story += cautions()
+    story += references()
     doc.build(story, canvasmaker=_NumberedCanvas)
