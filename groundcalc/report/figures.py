@@ -167,7 +167,7 @@ def touch_profile(results: Results, style) -> list:
         62 * mm,
         f"x [m] along y = {t.location_xy[1]:.2f} m",
         "Surface potential [V]",
-        ylim=(min(0.0, float(v.min())), results.gpr_v * 1.08),
+        ylim=(min(0.0, float(v.min())), results.gpr_v * 1.18),  # room for the legend above GPR
         hlines=[
             (results.gpr_v, f"GPR {results.gpr_v:,.0f} V", REF_COLOUR),
             (floor, f"GPR - tolerable touch ({floor:,.0f} V)", LIMIT_COLOUR),
