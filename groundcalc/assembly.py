@@ -24,16 +24,26 @@ series comes from :class:`groundcalc.tables.RadialSums`.
 from __future__ import annotations
 
 import logging
+from dataclasses import dataclass
 
 import numpy as np
 
 from .greens import Greens, uniform_greens
-from .kernels import FAR_RATIO, pair_integral
+from .kernels import FAR_MARGIN, FAR_RATIO, pair_integral
 from .model import Soil
 from .segments import Segments
 from .twolayer import DepthRanges, depth_key, two_layer_greens
 
-__all__ = ["FAR_RATIO", "assemble", "build_greens", "general_entries", "horizontal_mask"]
+__all__ = [
+    "FAR_RATIO",
+    "AssemblyStats",
+    "assemble",
+    "build_greens",
+    "general_entries",
+    "horizontal_mask",
+    "pair_entries",
+    "segment_classes",
+]
 
 log = logging.getLogger(__name__)
 
@@ -241,8 +251,8 @@ def _fast_block(dx, dy, zo, zs, eo, es, lo_len, ls_len, r2, greens: Greens, lay_
     return (s1 + corr) / (4.0 * np.pi)
 
 
-def assemble(segments: Segments, greens: Greens) -> np.ndarray:
-    """Upper triangle of the Galerkin matrix.
+def _assemble_direct(segments: Segments, greens: Greens, z: np.ndarray | None = None) -> np.ndarray:
+    """Upper triangle of the Galerkin matrix, every pair evaluated.
 
     Parameters
     ----------
@@ -258,7 +268,8 @@ def assemble(segments: Segments, greens: Greens) -> np.ndarray:
         the strict lower triangle zero. [ohm]
     """
     n = len(segments)
-    z = np.zeros((n, n))
+    if z is None:
+        z = np.zeros((n, n))
     mid = segments.mid
     length = segments.length
     e = (segments.b - segments.a) / length[:, None]
@@ -276,7 +287,7 @@ def assemble(segments: Segments, greens: Greens) -> np.ndarray:
         dx = mid[r, 0, None] - mid[None, c, 0]
         dy = mid[r, 1, None] - mid[None, c, 1]
         size = np.maximum(length[r, None], length[None, c])
-        far = (dx * dx + dy * dy) >= (FAR_RATIO * size) ** 2
+        far = (dx * dx + dy * dy) >= (FAR_RATIO * size) ** 2 * FAR_MARGIN
         fast = far & fast_ok[r, None] & fast_ok[None, c]
         upper = np.arange(i0, n)[None, :] >= np.arange(i0, i1)[:, None]
         if fast.any():
@@ -307,4 +318,273 @@ def assemble(segments: Segments, greens: Greens) -> np.ndarray:
     for k0 in range(0, ii.size, GENERAL_CHUNK):
         si, sj = ii[k0 : k0 + GENERAL_CHUNK], jj[k0 : k0 + GENERAL_CHUNK]
         z[si, sj] = general_entries(segments, greens, si, sj)
+    return z
+
+
+# ---------------------------------------------------------------------------
+# Reuse of repeated relative geometry.
+#
+# In a grid, many segments are copies of one another shifted in plan: same
+# direction, length, depth, radius and layer (a "class"). The entry of a pair
+# depends only on the plan offset of their mid points, and the offsets of two
+# classes whose mid points sit on a few distinct x and y coordinates take
+# few distinct values. Each distinct offset is evaluated once, by the same
+# rules as above, and gathered into the matrix.
+# ---------------------------------------------------------------------------
+
+#: Plan coordinates are matched on this grid (far below any effect on an entry). [m]
+LATTICE_QUANTUM_M = 1e-9
+#: A class pair uses reuse when it has at least this many pairs per distinct offset.
+LATTICE_GAIN = 8.0
+#: Above this many classes the layout is treated as irregular (every pair evaluated).
+MAX_CLASSES = 200
+#: Matrix elements gathered per step (memory bound).
+GATHER_ELEMENTS = 2_000_000
+
+
+@dataclass
+class AssemblyStats:
+    """What :func:`assemble` did (for tests and benchmarks)."""
+
+    method: str = "direct"
+    classes: int = 0
+    pairs: int = 0
+    evaluated: int = 0
+    reused_pairs: int = 0
+
+
+def pair_entries(
+    segments: Segments, greens: Greens, ii: np.ndarray, jj: np.ndarray, groups: tuple | None = None
+) -> np.ndarray:
+    """Entries ``Z[ii, jj]`` by the same rules as the full assembly (fast path for far pairs).
+
+    Parameters
+    ----------
+    segments : Segments
+        Thin-wire segments.
+    greens : Greens
+        Soil Green's function.
+    ii, jj : numpy.ndarray of int
+        Observer and source segment indices.
+    groups : (gid, keys), optional
+        Fast-path groups of ``segments`` (as from the whole layout); computed
+        from ``segments`` when omitted.
+
+    Returns
+    -------
+    numpy.ndarray
+        Entries. [ohm]
+    """
+    ii = np.asarray(ii, dtype=np.int64)
+    jj = np.asarray(jj, dtype=np.int64)
+    mid = segments.mid
+    length = segments.length
+    e = (segments.b - segments.a) / length[:, None]
+    gid, keys = groups if groups is not None else _groups(segments, greens, horizontal_mask(segments))
+    dx = mid[ii, 0] - mid[jj, 0]
+    dy = mid[ii, 1] - mid[jj, 1]
+    size = np.maximum(length[ii], length[jj])
+    fast = ((dx * dx + dy * dy) >= (FAR_RATIO * size) ** 2 * FAR_MARGIN) & (gid[ii] >= 0) & (gid[jj] >= 0)
+    out = np.empty(ii.size)
+    f = np.flatnonzero(fast)
+    if f.size:
+        fi, fj = ii[f], jj[f]
+        out[f] = _fast_block(
+            dx[f],
+            dy[f],
+            mid[fi, 2],
+            mid[fj, 2],
+            (e[fi, 0], e[fi, 1]),
+            (e[fj, 0], e[fj, 1]),
+            length[fi],
+            length[fj],
+            segments.radius[fi] * segments.radius[fj],
+            greens,
+            segments.layer[fi],
+            segments.layer[fj],
+            gid[fi],
+            gid[fj],
+            keys,
+        )
+    g = np.flatnonzero(~fast)
+    for k0 in range(0, g.size, GENERAL_CHUNK):
+        sel = g[k0 : k0 + GENERAL_CHUNK]
+        out[sel] = general_entries(segments, greens, ii[sel], jj[sel])
+    return out
+
+
+def segment_classes(segments: Segments) -> np.ndarray:
+    """Class of each segment: equal direction (either sense), length, depth, radius and layer."""
+    length = segments.length
+    e = (segments.b - segments.a) / length[:, None]
+    # either sense of a segment gives the same entries
+    first = np.argmax(np.abs(e) > 1e-12, axis=1)
+    sign = np.sign(e[np.arange(len(e)), first])
+    e = e * sign[:, None]
+    key = np.column_stack(
+        [
+            np.rint(e * 1e9),
+            np.rint(length * 1e9),
+            np.rint(segments.mid[:, 2] * 1e9),
+            np.rint(segments.radius * 1e12),
+            segments.layer,
+        ]
+    ).astype(np.int64)
+    _, cls = np.unique(key, axis=0, return_inverse=True)
+    return cls.reshape(-1)
+
+
+@dataclass
+class _Class:
+    idx: np.ndarray  # segment indices
+    ux: np.ndarray  # distinct quantised x of the mid points
+    uy: np.ndarray
+    ix: np.ndarray  # position of each segment in ux
+    iy: np.ndarray
+
+
+def _class_table(segments: Segments, cls: np.ndarray) -> list[_Class]:
+    mid = segments.mid
+    out = []
+    for c in range(int(cls.max()) + 1):
+        idx = np.flatnonzero(cls == c)
+        kx = np.rint(mid[idx, 0] / LATTICE_QUANTUM_M).astype(np.int64)
+        ky = np.rint(mid[idx, 1] / LATTICE_QUANTUM_M).astype(np.int64)
+        ux, ix = np.unique(kx, return_inverse=True)
+        uy, iy = np.unique(ky, return_inverse=True)
+        out.append(_Class(idx, ux, uy, ix.reshape(-1), iy.reshape(-1)))
+    return out
+
+
+def _offset_entries(segments: Segments, greens: Greens, groups, obs: int, src: int, dx: np.ndarray, dy: np.ndarray):
+    """Entries for the observer shaped like segment ``obs`` at plan offset (dx, dy) from ``src``.
+
+    The copies keep the fast-path groups of the originals, so every pair is
+    evaluated by exactly the rule the direct assembly would use.
+    """
+    m = dx.size
+    a0, b0 = segments.a, segments.b
+    mo, ms = 0.5 * (a0[obs] + b0[obs]), 0.5 * (a0[src] + b0[src])
+    shift = np.zeros((m, 3))
+    shift[:, 0] = dx + ms[0] - mo[0]
+    shift[:, 1] = dy + ms[1] - mo[1]
+    a = np.concatenate([a0[obs] + shift, a0[src][None, :]])
+    b = np.concatenate([b0[obs] + shift, b0[src][None, :]])
+    synth = Segments(
+        a,
+        b,
+        np.concatenate([np.full(m, segments.radius[obs]), [segments.radius[src]]]),
+        np.zeros(m + 1, dtype=np.int64),
+        np.concatenate([np.full(m, segments.layer[obs]), [segments.layer[src]]]),
+    )
+    gid, keys = groups
+    synth_groups = (np.concatenate([np.full(m, gid[obs]), [gid[src]]]), keys)
+    return pair_entries(synth, greens, np.arange(m), np.full(m, m), synth_groups)
+
+
+def _lattice_block(segments, greens, groups, z, ca: _Class, cb: _Class, same: bool, stats: AssemblyStats) -> bool:
+    """Fill the block of classes ``ca`` (rows) and ``cb`` (columns) by reuse; False if not worth it."""
+    pairs = ca.idx.size * (ca.idx.size + 1) // 2 if same else ca.idx.size * cb.idx.size
+    udx, lx = np.unique(ca.ux[:, None] - cb.ux[None, :], return_inverse=True)
+    udy, ly = np.unique(ca.uy[:, None] - cb.uy[None, :], return_inverse=True)
+    count = udx.size * udy.size
+    if count * LATTICE_GAIN > pairs:
+        return False
+    lx = lx.reshape(ca.ux.size, cb.ux.size)
+    ly = ly.reshape(ca.uy.size, cb.uy.size)
+    gx, gy = np.meshgrid(udx * LATTICE_QUANTUM_M, udy * LATTICE_QUANTUM_M, indexing="ij")
+    table = _offset_entries(segments, greens, groups, int(ca.idx[0]), int(cb.idx[0]), gx.ravel(), gy.ravel())
+    # flat table index of pair (p, q) = lx[ix_p, ix_q] * len(udy) + ly[iy_p, iy_q]: two row gathers
+    # from small per-coordinate tables, one add, one gather from the (cached) table
+    itype = np.int32 if count < 2**31 else np.int64
+    col_x = (lx[:, cb.ix] * udy.size).astype(itype)
+    col_y = ly[:, cb.iy].astype(itype)
+    rows_c, cols_c = _as_range(ca.idx), _as_range(cb.idx)
+    # with both classes contiguous and the rows first, the block lies in the upper triangle
+    upper_only = same or (rows_c is not None and cols_c is not None and rows_c.stop <= cols_c.start)
+    rows = max(1, GATHER_ELEMENTS // max(cb.idx.size, 1))
+    for r0 in range(0, ca.idx.size, rows):
+        r = slice(r0, r0 + rows)
+        flat = col_x[ca.ix[r]]
+        flat += col_y[ca.iy[r]]
+        blk = table[flat]
+        if rows_c is not None and cols_c is not None:
+            z[rows_c.start + r0 : rows_c.start + r0 + blk.shape[0], cols_c] = blk
+            if not upper_only:
+                z[cols_c, rows_c.start + r0 : rows_c.start + r0 + blk.shape[0]] = blk.T
+        else:
+            z[np.ix_(ca.idx[r], cb.idx)] = blk
+            if not upper_only:
+                z[np.ix_(cb.idx, ca.idx[r])] = blk.T
+    stats.evaluated += count
+    stats.reused_pairs += pairs
+    return True
+
+
+def _as_range(idx: np.ndarray) -> slice | None:
+    """The slice equal to a sorted index array, if it is contiguous."""
+    if idx.size and idx[-1] - idx[0] + 1 == idx.size:
+        return slice(int(idx[0]), int(idx[-1]) + 1)
+    return None
+
+
+def _direct_block(segments, greens, groups, z, ca: _Class, cb: _Class, same: bool, stats: AssemblyStats) -> None:
+    rows = max(1, GATHER_ELEMENTS // max(cb.idx.size, 1))
+    for r0 in range(0, ca.idx.size, rows):
+        ri = ca.idx[r0 : r0 + rows]
+        ii, jj = np.meshgrid(ri, cb.idx, indexing="ij")
+        ii, jj = ii.ravel(), jj.ravel()
+        if same:
+            keep = ii <= jj
+            ii, jj = ii[keep], jj[keep]
+        # store in the upper triangle
+        lo, hi = np.minimum(ii, jj), np.maximum(ii, jj)
+        z[lo, hi] = pair_entries(segments, greens, ii, jj, groups)
+        stats.evaluated += ii.size
+
+
+def assemble(segments: Segments, greens: Greens, stats: AssemblyStats | None = None) -> np.ndarray:
+    """Galerkin matrix; the upper triangle (with the diagonal) is what solvers read.
+
+    Parameters
+    ----------
+    segments : Segments
+        Thin-wire segments.
+    greens : Greens
+        Soil Green's function.
+    stats : AssemblyStats, optional
+        Filled with what was done.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, n)
+        Matrix whose upper triangle including the diagonal holds the entries;
+        the strict lower triangle holds either zeros or the same entries
+        mirrored, so use ``np.triu`` before relying on it. [ohm]
+
+    Notes
+    -----
+    Regular layouts reuse entries of repeated relative geometry (see
+    ``segment_classes``); irregular ones evaluate every pair. Both use the
+    same rules, so they agree to round-off (tests/test_assembly.py).
+    """
+    stats = stats if stats is not None else AssemblyStats()
+    n = len(segments)
+    stats.pairs = n * (n + 1) // 2
+    cls = segment_classes(segments) if n else np.zeros(0, dtype=np.int64)
+    stats.classes = int(cls.max()) + 1 if n else 0
+    if n < 64 or stats.classes > MAX_CLASSES:
+        stats.method = "direct"
+        stats.evaluated = stats.pairs
+        return _assemble_direct(segments, greens)
+    table = sorted(_class_table(segments, cls), key=lambda c: int(c.idx[0]))
+    groups = _groups(segments, greens, horizontal_mask(segments))
+    z = np.zeros((n, n))
+    for a_ in range(len(table)):
+        for b_ in range(a_, len(table)):
+            ca, cb = table[a_], table[b_]
+            if not _lattice_block(segments, greens, groups, z, ca, cb, a_ == b_, stats):
+                _direct_block(segments, greens, groups, z, ca, cb, a_ == b_, stats)
+    stats.method = "reuse of repeated geometry" if stats.reused_pairs else "direct"
+    log.debug("assembly: %d classes, %d of %d pairs evaluated", stats.classes, stats.evaluated, stats.pairs)
     return z

@@ -200,6 +200,9 @@ def gauss_legendre_unit(n: int) -> tuple[np.ndarray, np.ndarray]:
 #: Pairs whose mid-point distance exceeds this many segment lengths use the
 #: corrected mid-point rule instead of the closed forms.
 FAR_RATIO = 8.0
+#: Pairs within this relative margin of the far boundary count as near, so that
+#: round-off in coordinates never decides which rule a pair gets.
+FAR_MARGIN = 1.0 + 1e-6
 #: Gauss points on the observer for oblique pairs that are close together.
 OBLIQUE_POINTS = 16
 
@@ -275,7 +278,7 @@ def pair_integral(
     lo = np.sqrt(_dot(do, do))
     ls = np.sqrt(_dot(ds, ds))
     size = np.maximum(lo, ls)
-    far = _dot(dm, dm) >= (FAR_RATIO * size) ** 2
+    far = _dot(dm, dm) >= (FAR_RATIO * size) ** 2 * FAR_MARGIN
     out = np.empty(oa.shape[0])
     if far.any():
         out[far] = far_pair_integral(do[far], ds[far], dm[far], radius2[far])

@@ -86,7 +86,7 @@ def test_matrix_is_symmetric_positive_definite():
     # Galerkin testing of a positive kernel gives an SPD matrix (design notes).
     seg = segment_conductors(annex_b_grid(3)[0].conductors(), 5.0)
     z = assemble(seg.segments, uniform_greens(Soil("uniform", 100.0)))
-    full = z + np.triu(z, 1).T
+    full = np.triu(z) + np.triu(z, 1).T
     assert np.all(np.linalg.eigvalsh(full) > 0)
 
 

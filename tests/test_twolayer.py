@@ -177,7 +177,7 @@ def test_matrix_against_brute_force_images(k, h):
     assert np.max(np.abs(z[iu] / zb[iu] - 1)) < 1e-5
 
     def r_of(m):
-        full = m + np.triu(m, 1).T
+        full = np.triu(m) + np.triu(m, 1).T
         return 1 / np.linalg.solve(full, np.ones(len(seg))).sum()
 
     assert r_of(z) == pytest.approx(r_of(zb), rel=1e-6)
