@@ -336,8 +336,10 @@ def _assemble_direct(segments: Segments, greens: Greens, z: np.ndarray | None = 
 LATTICE_QUANTUM_M = 1e-9
 #: A class pair uses reuse when it has at least this many pairs per distinct offset.
 LATTICE_GAIN = 8.0
-#: Above this many classes the layout is treated as irregular (every pair evaluated).
+#: Above this many large classes the layout is treated as irregular (every pair evaluated).
 MAX_CLASSES = 200
+#: Classes smaller than this are not worth reuse; their pairs are evaluated directly.
+MIN_CLASS_SIZE = 32
 #: Matrix elements gathered per step (memory bound).
 GATHER_ELEMENTS = 2_000_000
 
@@ -528,21 +530,6 @@ def _as_range(idx: np.ndarray) -> slice | None:
     return None
 
 
-def _direct_block(segments, greens, groups, z, ca: _Class, cb: _Class, same: bool, stats: AssemblyStats) -> None:
-    rows = max(1, GATHER_ELEMENTS // max(cb.idx.size, 1))
-    for r0 in range(0, ca.idx.size, rows):
-        ri = ca.idx[r0 : r0 + rows]
-        ii, jj = np.meshgrid(ri, cb.idx, indexing="ij")
-        ii, jj = ii.ravel(), jj.ravel()
-        if same:
-            keep = ii <= jj
-            ii, jj = ii[keep], jj[keep]
-        # store in the upper triangle
-        lo, hi = np.minimum(ii, jj), np.maximum(ii, jj)
-        z[lo, hi] = pair_entries(segments, greens, ii, jj, groups)
-        stats.evaluated += ii.size
-
-
 def assemble(segments: Segments, greens: Greens, stats: AssemblyStats | None = None) -> np.ndarray:
     """Galerkin matrix; the upper triangle (with the diagonal) is what solvers read.
 
@@ -573,18 +560,41 @@ def assemble(segments: Segments, greens: Greens, stats: AssemblyStats | None = N
     stats.pairs = n * (n + 1) // 2
     cls = segment_classes(segments) if n else np.zeros(0, dtype=np.int64)
     stats.classes = int(cls.max()) + 1 if n else 0
-    if n < 64 or stats.classes > MAX_CLASSES:
+    sizes = np.bincount(cls) if n else np.zeros(0, dtype=np.int64)
+    big = [c for c in _class_table(segments, cls) if c.idx.size >= MIN_CLASS_SIZE] if n >= 64 else []
+    if not big or len(big) > MAX_CLASSES or sizes.max() < MIN_CLASS_SIZE:
         stats.method = "direct"
         stats.evaluated = stats.pairs
         return _assemble_direct(segments, greens)
-    table = sorted(_class_table(segments, cls), key=lambda c: int(c.idx[0]))
+    big.sort(key=lambda c: int(c.idx[0]))
     groups = _groups(segments, greens, horizontal_mask(segments))
     z = np.zeros((n, n))
-    for a_ in range(len(table)):
-        for b_ in range(a_, len(table)):
-            ca, cb = table[a_], table[b_]
-            if not _lattice_block(segments, greens, groups, z, ca, cb, a_ == b_, stats):
-                _direct_block(segments, greens, groups, z, ca, cb, a_ == b_, stats)
-    stats.method = "reuse of repeated geometry" if stats.reused_pairs else "direct"
+    done = np.zeros((len(big), len(big)), dtype=bool)
+    for a_ in range(len(big)):
+        for b_ in range(a_, len(big)):
+            if _lattice_block(segments, greens, groups, z, big[a_], big[b_], a_ == b_, stats):
+                done[a_, b_] = done[b_, a_] = True
+    if not done.any():
+        stats.method = "direct"
+        stats.evaluated = stats.pairs
+        return _assemble_direct(segments, greens, z)
+    # every pair not covered by reuse, by the usual rules, row block by row block
+    big_id = np.full(n, -1, dtype=np.int64)
+    for k, c in enumerate(big):
+        big_id[c.idx] = k
+    rows = max(1, GATHER_ELEMENTS // max(n, 1))
+    for i0 in range(0, n, rows):
+        i1 = min(n, i0 + rows)
+        bi = big_id[i0:i1, None]
+        bj = big_id[None, i0:]
+        covered = (bi >= 0) & (bj >= 0) & done[np.maximum(bi, 0), np.maximum(bj, 0)]
+        need = ~covered & (np.arange(i0, n)[None, :] >= np.arange(i0, i1)[:, None])
+        ii, jj = np.nonzero(need)
+        if ii.size:
+            ii += i0
+            jj += i0
+            z[ii, jj] = pair_entries(segments, greens, ii, jj, groups)
+            stats.evaluated += ii.size
+    stats.method = "reuse of repeated geometry"
     log.debug("assembly: %d classes, %d of %d pairs evaluated", stats.classes, stats.evaluated, stats.pairs)
     return z

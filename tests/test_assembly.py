@@ -125,3 +125,21 @@ def test_surface_far_rule_against_plain_evaluation(soil, monkeypatch):
     monkeypatch.setattr(surface, "FAR_RATIO", 1e9)
     plain = surface.surface_potential(pts, sol, 1.0)
     assert np.max(np.abs(fast - plain)) < 1e-4
+
+
+def test_reuse_with_irregular_conductors_mixed_in():
+    # A diagonal conductor and a short tail are not copies of anything: their pairs are evaluated
+    # directly while the grid's classes are reused; the matrix is the same as the direct one.
+    extra = [
+        Conductor("diag", (0.0, 0.0, 0.5), (24.0, 18.0, 0.5), 0.01),
+        Conductor("tail", (24.0, 9.0, 0.5), (27.3, 9.0, 0.5), 0.01),
+    ]
+    d = make_design(grids=GRID, rods=RODS, conductors=extra, segment=1.0)
+    seg = segment_conductors(d.all_conductors(), 1.0).segments
+    g = build_greens(SOILS[0], seg)
+    stats = AssemblyStats()
+    z = assemble(seg, g, stats)
+    z0 = assembly._assemble_direct(seg, g)
+    iu = np.triu_indices(len(seg))
+    assert stats.method == "reuse of repeated geometry" and 0 < stats.reused_pairs < stats.pairs
+    assert np.max(np.abs(z[iu] / z0[iu] - 1)) < 1e-9
