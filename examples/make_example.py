@@ -1,8 +1,14 @@
-"""Write examples/kestrel-brook.xlsx, the bundled demo design.
+"""Write the bundled demo designs in examples/.
 
 The scenario is invented for demonstration: "Kestrel Brook" is a made-up
-132/33 kV substation with made-up soil and fault data. Run from the
-repository root:  python examples/make_example.py
+132/33 kV substation with made-up soil and fault data.
+
+- kestrel-brook.xlsx: the base design.
+- kestrel-brook-closer.xlsx: the same site with a closer-meshed switchyard grid (for compare).
+- kestrel-brook-variants.xlsx: the base design with a Variants sheet (dry season, future
+  fault level, thinner crushed rock).
+
+Run from the repository root:  python examples/make_example.py
 """
 
 from __future__ import annotations
@@ -25,8 +31,8 @@ def fill_keyvalue(ws, values: dict[str, object]) -> None:
         raise KeyError(f"not in template: {sorted(values)}")
 
 
-def build(path: Path = OUT) -> Path:
-    """Build the demo workbook at ``path``."""
+def build(path: Path = OUT, yard=(9, 11), variants=()) -> Path:
+    """Build the demo workbook at ``path`` (switchyard conductor counts, variant rows)."""
     wb = build_template()
     fill_keyvalue(
         wb["Project"],
@@ -60,7 +66,7 @@ def build(path: Path = OUT) -> Path:
     )
     fill_keyvalue(wb["Settings"], {"Segment length [m]": 1.0})
     # Main switchyard grid: 60 m x 40 m, 6 m x 5 m meshes.
-    wb["Grids"].append(["Yard", 0, 0, 60, 40, 9, 11, 0.6, 12])
+    wb["Grids"].append(["Yard", 0, 0, 60, 40, yard[0], yard[1], 0.6, 12])
     # Control building extension on the east side, drawn conductor by conductor.
     ws = wb["Conductors"]
     for row in [
@@ -77,9 +83,25 @@ def build(path: Path = OUT) -> Path:
     sides = [(30, 0), (30, 40), (0, 20)]
     for k, (x, y) in enumerate(corners + sides, start=1):
         ws.append([f"Rod-{k}", x, y, 0.6, 3.0, 16])
+    ws = wb["Variants"]
+    cols = {str(c.value): c.column for c in ws[1]}
+    for name, changes in variants:
+        row = ws.max_row + 1
+        ws.cell(row=row, column=cols["Variant"], value=name)
+        for header, v in changes.items():
+            ws.cell(row=row, column=cols[header], value=v)
     wb.save(path)
     return path
 
 
+VARIANTS = (
+    ("dry season", {"Upper resistivity [ohm*m]": 300}),
+    ("future fault level", {"Fault current [A]": 12000}),
+    ("thin crushed rock", {"Surface layer thickness [m]": 0.08}),
+)
+
+
 if __name__ == "__main__":
     print(build())
+    print(build(HERE / "kestrel-brook-closer.xlsx", yard=(11, 13)))
+    print(build(HERE / "kestrel-brook-variants.xlsx", variants=VARIANTS))

@@ -1,4 +1,4 @@
-"""Command line: ``groundcalc template``, ``groundcalc run`` and ``groundcalc soil``.
+"""Command line: ``groundcalc template``, ``run``, ``soil``, ``compare`` and ``sweep``.
 
 Exit codes: 0 finished (the design may still fail the safety criteria; the
 output says so), 2 bad input or arguments, 1 internal error.
@@ -125,21 +125,40 @@ def _cmd_run(args: argparse.Namespace) -> int:
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
-    results = analyse(design)
+    variant_run = None
+    if design.variants:
+        from .compare import summarise, table_lines
+        from .variants import run_variants
+
+        log.info("base case and %d variant(s)", len(design.variants))
+        variant_run = run_variants(design)
+        results = variant_run.results[0]
+        vsum = [summarise(r, n) for n, r in zip(variant_run.names, variant_run.results, strict=True)]
+    else:
+        results = analyse(design)
     for n in results.notices:
         log.warning("%s: %s", n.level, n.message)
     if results.soil_fit is not None:
         print("\n".join(soil_fit_lines(results.soil_fit)))
         print()
     print("\n".join(_summary_lines(results)))
+    extra = None
+    if variant_run is not None:
+        print(f"\nBase case and variants (geometry solved {variant_run.geometry_solves} time(s)):")
+        print("\n".join(table_lines(vsum, [None] * len(vsum), first="Case")))
+        extra = (variant_run.names, vsum, variant_run.overrides, variant_run.geometry_solves)
     if json_out:
-        write_json(json_out, results_to_dict(results, args.workbook))
+        data = results_to_dict(results, args.workbook)
+        if variant_run is not None:
+            data["variants"] = [{**s.to_dict(), "changes": o} for s, o in zip(vsum, variant_run.overrides, strict=True)]
+            data["geometry_solves"] = variant_run.geometry_solves
+        write_json(json_out, data)
         log.info("wrote %s", json_out)
     if report:
         from .report import write_report
 
         log.info("writing report %s", report)
-        atomic_write(report, lambda tmp: write_report(results, tmp, Path(args.workbook).name, sha_before or ""))
+        atomic_write(report, lambda tmp: write_report(results, tmp, Path(args.workbook).name, sha_before or "", extra))
         log.info("wrote %s", report)
     _print_cautions()
     return 0
@@ -196,6 +215,149 @@ def _cmd_soil(args: argparse.Namespace) -> int:
     return 0
 
 
+def _jobs(value: str) -> int:
+    try:
+        n = int(value)
+    except ValueError:
+        n = 0
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"--jobs must be a whole number of 1 or more, got '{value}'")
+    return n
+
+
+def _write_side_by_side(args, inputs, summaries, ranks, title, intro, first, extra_json=None) -> None:
+    from .outputs import atomic_write, check_output, write_json
+
+    json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
+    report = check_output(args.report, inputs, args.overwrite, "report") if args.report else None
+    if json_out:
+        from .cautions import CAUTIONS, DRAFT_MARK
+
+        data = {
+            "groundcalc_version": __version__,
+            "status": DRAFT_MARK,
+            "designs": [{**s.to_dict(), "rank": r} for s, r in zip(summaries, ranks, strict=True)],
+            "ranking_basis": "passing designs by buried metal mass (kg), lightest first",
+            "cautions": [f"{h}: {t}" for h, t in CAUTIONS],
+            **(extra_json or {}),
+        }
+        write_json(json_out, data)
+        log.info("wrote %s", json_out)
+    if report:
+        from .report.comparison import write_comparison_report
+
+        atomic_write(report, lambda tmp: write_comparison_report(tmp, title, summaries, ranks, intro, first))
+        log.info("wrote %s", report)
+
+
+def _check_outputs_early(args, inputs) -> None:
+    from .outputs import check_output
+
+    for what, path in (("JSON", args.json), ("report", args.report)):
+        if path:
+            check_output(path, inputs, args.overwrite, what)
+    if args.json and args.report and Path(args.json).resolve() == Path(args.report).resolve():
+        raise InputError("the report and JSON outputs are the same file", fix="Give them different names")
+
+
+def _cmd_compare(args: argparse.Namespace) -> int:
+    from .compare import default_jobs, rank, run_parallel, summarise_file, table_lines
+
+    inputs = list(args.workbooks)
+    _check_outputs_early(args, inputs)
+    jobs = args.jobs or default_jobs()
+    log.info("analysing %d designs in %d worker process(es)", len(inputs), min(jobs, len(inputs)))
+    summaries = run_parallel(summarise_file, [str(p) for p in inputs], jobs)
+    ranks = rank(summaries)
+    print("\n".join(table_lines(summaries, ranks)))
+    passing = [s for s, r in sorted(zip(summaries, ranks, strict=True), key=lambda t: t[1] or 10**9) if r]
+    if passing:
+        print(f"\nLightest passing design: {passing[0].name} ({passing[0].mass_kg:,.0f} kg of buried metal)")
+    else:
+        print("\nNo design passes.")
+    _write_side_by_side(
+        args,
+        inputs,
+        summaries,
+        ranks,
+        "Grounding designs side by side - draft",
+        f"{len(summaries)} designs compared: " + ", ".join(Path(p).name for p in inputs) + ".",
+        "Design",
+    )
+    _print_cautions()
+    failed = [s for s in summaries if s.error is not None]
+    for s in failed:
+        print(f"groundcalc: error: {s.name}: {s.error}", file=sys.stderr)
+    return 2 if failed else 0
+
+
+def _cmd_sweep(args: argparse.Namespace) -> int:
+    from .analysis import resolve_soil
+    from .compare import default_jobs, rank, run_parallel, summarise_design, table_lines
+    from .outputs import check_output, write_design_with_layout
+    from .sweep import parse_counts, parse_range, sweep_layouts
+    from .workbook import read_design
+
+    inputs = [args.workbook]
+    _check_outputs_early(args, inputs)
+    design_out = check_output(args.write_design, inputs, args.overwrite, "design") if args.write_design else None
+    if design_out is not None and design_out.suffix.lower() != ".xlsx":
+        raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-swept.xlsx")
+    spacings = parse_range(args.spacing, "--spacing")
+    counts = parse_counts(args.rods, "--rods")
+    if not 0 < args.rod_length <= 100:
+        raise InputError(f"--rod-length {args.rod_length:g} m is out of range", fix="Use 1 to 30 m (typical 3 m)")
+    design, fit = resolve_soil(read_design(args.workbook))
+    if fit is not None:
+        log.info("soil fitted once to the Wenner readings for every layout")
+    layouts = sweep_layouts(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0)
+    jobs = args.jobs or default_jobs()
+    log.info("sweep: %d layouts in %d worker process(es)", len(layouts), min(jobs, len(layouts)))
+    summaries = run_parallel(summarise_design, [(lay.name, lay.design) for lay in layouts], jobs)
+    for lay, s in zip(layouts, summaries, strict=True):
+        s.extra = {
+            "spacing_target_m": lay.spacing_target_m,
+            "spacing_x_m": lay.spacing_x_m,
+            "spacing_y_m": lay.spacing_y_m,
+            "conductors_along_x": lay.n_along_x,
+            "conductors_along_y": lay.n_along_y,
+            "rods_added": lay.rods_added,
+        }
+    ranks = rank(summaries)
+    print("\n".join(table_lines(summaries, ranks, first="Layout")))
+    best = min((k for k, r in enumerate(ranks) if r), key=lambda k: ranks[k], default=None)
+    if best is None:
+        print("\nNo layout of the sweep passes. Try closer spacing, more or longer rods, or a better surface layer.")
+    else:
+        b = layouts[best]
+        print(
+            f"\nLightest layout that passes: {b.name} (spacing {b.spacing_x_m:.2f} m x {b.spacing_y_m:.2f} m, "
+            f"{summaries[best].mass_kg:,.0f} kg). A design aid: the engineer decides."
+        )
+        if design_out:
+            added = b.design.rods[len(design.rods) :]
+            write_design_with_layout(
+                args.workbook, design_out, b.design.grids[0], added, "rods added by groundcalc sweep"
+            )
+            print(f"wrote {design_out} with this layout (the input is unchanged)")
+    if design_out and best is None:
+        print(f"{design_out} not written: no layout passes")
+    _write_side_by_side(
+        args,
+        inputs,
+        summaries,
+        ranks,
+        "Grid layout sweep - draft",
+        f"Sweep of {Path(args.workbook).name}: spacings {args.spacing} m, perimeter rods {args.rods} "
+        f"({args.rod_length:g} m long). The lightest passing layout is ranked 1; this is a design aid and the "
+        "engineer decides.",
+        "Layout",
+        {"chosen": summaries[best].name if best is not None else None},
+    )
+    _print_cautions()
+    return 0
+
+
 def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="groundcalc",
@@ -225,6 +387,29 @@ def _parser() -> argparse.ArgumentParser:
     s.add_argument("--overwrite", action="store_true", help="replace existing output files")
     s.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     s.set_defaults(func=_cmd_soil)
+
+    c = sub.add_parser("compare", help="analyse several design workbooks and compare them side by side")
+    c.add_argument("workbooks", nargs="+", help="design workbooks (.xlsx)")
+    c.add_argument("--report", metavar="PDF", help="write the side-by-side draft to this PDF")
+    c.add_argument("--json", metavar="JSON", help="write the table to this file")
+    c.add_argument("--jobs", type=_jobs, default=0, metavar="N", help="worker processes (default: one per core)")
+    c.add_argument("--overwrite", action="store_true", help="replace existing output files")
+    c.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    c.set_defaults(func=_cmd_compare)
+
+    w = sub.add_parser("sweep", help="vary the spacing and perimeter rods of a rectangular grid")
+    w.add_argument("workbook", help="design workbook with one 'Grids' row (.xlsx)")
+    w.add_argument("--spacing", required=True, metavar="FROM:TO:STEP", help="conductor spacings to try [m], or a list")
+    w.add_argument("--rods", default="0", metavar="N,N,...", help="numbers of perimeter rods to try (default 0)")
+    w.add_argument("--rod-length", type=float, default=3.0, metavar="M", help="length of the added rods [m] (3)")
+    w.add_argument("--rod-diameter", type=float, default=16.0, metavar="MM", help="their diameter [mm] (16)")
+    w.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the chosen layout")
+    w.add_argument("--report", metavar="PDF", help="write the sweep table to this PDF")
+    w.add_argument("--json", metavar="JSON", help="write the sweep table to this file")
+    w.add_argument("--jobs", type=_jobs, default=0, metavar="N", help="worker processes (default: one per core)")
+    w.add_argument("--overwrite", action="store_true", help="replace existing output files")
+    w.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    w.set_defaults(func=_cmd_sweep)
     return p
 
 

@@ -20,6 +20,7 @@ __all__ = [
     "Settings",
     "Soil",
     "SurfaceLayer",
+    "Variant",
     "WennerReadings",
 ]
 
@@ -292,6 +293,28 @@ class Settings:
 
 
 @dataclass(frozen=True)
+class Variant:
+    """A named variant of the base case (one row of the Variants sheet).
+
+    Attributes
+    ----------
+    name : str
+        Variant name.
+    overrides : dict
+        Normalised quantity name -> value in SI units.
+    row : int
+        Worksheet row, for messages.
+    columns : dict
+        Normalised quantity name -> column label, for messages.
+    """
+
+    name: str
+    overrides: dict
+    row: int = 0
+    columns: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
 class Design:
     """Everything needed to analyse one grounding design."""
 
@@ -306,6 +329,7 @@ class Design:
     notices: tuple[Notice, ...] = ()
     source_name: str = ""
     wenner: WennerReadings | None = None
+    variants: tuple[Variant, ...] = ()
 
     def all_conductors(self) -> list[Conductor]:
         """Conductors, generated grid lines and rods as one list."""

@@ -375,6 +375,62 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
     atomic_write(target, lambda tmp: wb.save(tmp))
 
 
+def write_design_with_layout(source: str | Path, target: str | Path, grid, added_rods, note: str) -> None:
+    """Copy a workbook with its single Grids row set to ``grid`` and ``added_rods`` appended.
+
+    The source is only read. Only the two conductor counts of the Grids row
+    change; the rods go below the existing rows of the Rods sheet, in its
+    column order.
+    """
+    import openpyxl
+
+    from .schema import GRIDS, RODS
+    from .units import UNITS, normalise_name, normalise_unit, split_header
+
+    wb = openpyxl.load_workbook(source)
+
+    def sheet(spec):
+        for name in wb.sheetnames:
+            if normalise_name(name) == normalise_name(spec.name):
+                return wb[name]
+        return None
+
+    def columns(ws) -> dict[str, int]:
+        return {split_header(str(c.value))[0]: c.column for c in ws[1] if c.value is not None}
+
+    ws = sheet(GRIDS)
+    cols = columns(ws)
+    data = [r for r in ws.iter_rows(min_row=2) if any(c.value is not None for c in r)]
+    row = data[0][0].row
+    ws.cell(row=row, column=cols["conductors along x"], value=grid.n_along_x)
+    ws.cell(row=row, column=cols["conductors along y"], value=grid.n_along_y)
+    rods_ws = sheet(RODS)
+    rcols = columns(rods_ws)
+    scale = {}
+    for c in rods_ws[1]:
+        if c.value is None:
+            continue
+        name, unit = split_header(str(c.value))
+        scale[name] = UNITS["length"].get(normalise_unit(unit), 1.0) if unit else 1.0
+    last = max([r[0].row for r in rods_ws.iter_rows(min_row=2) if any(c.value is not None for c in r)] or [1])
+    for k, rod in enumerate(added_rods, start=1):
+        vals = {
+            "label": rod.label,
+            "x": rod.x_m,
+            "y": rod.y_m,
+            "top depth": rod.top_depth_m,
+            "length": rod.length_m,
+            "diameter": rod.diameter_m,
+        }
+        for key, v in vals.items():
+            if key in rcols:
+                out = v if key == "label" else round(v / scale.get(key, 1.0), 9)
+                rods_ws.cell(row=last + k, column=rcols[key], value=out)
+    if added_rods:
+        rods_ws.cell(row=last + 1, column=max(rcols.values()) + 1, value=note)
+    atomic_write(target, lambda tmp: wb.save(tmp))
+
+
 def write_json(path: str | Path, data: dict[str, Any]) -> None:
     """Write ``data`` as indented JSON, atomically."""
 

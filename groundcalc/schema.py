@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["ALL_SHEETS", "Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "WENNER", "sheet_spec"]
+__all__ = ["ALL_SHEETS", "Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "VARIANTS", "WENNER", "sheet_spec"]
 
 
 @dataclass(frozen=True)
@@ -410,9 +410,41 @@ WENNER = SheetSpec(
     "'groundcalc soil' and by Model = fitted on the Soil sheet.",
 )
 
+VARIANTS = SheetSpec(
+    "Variants",
+    "table",
+    (
+        Field("Variant", "text", True, help="Name of the variant, e.g. 'dry season' or 'future fault level'."),
+        Field("Upper resistivity", "resistivity", False, "positive", "Replaces the soil (or upper-layer) resistivity."),
+        Field(
+            "Upper thickness",
+            _LEN,
+            False,
+            "positive",
+            "Replaces the upper-layer thickness H; with 'Lower resistivity' it makes uniform soil two-layer.",
+        ),
+        Field("Lower resistivity", "resistivity", False, "positive", "Replaces the lower-layer resistivity."),
+        Field("Surface layer resistivity", "resistivity", False, "positive", "Replaces the surface layer rho_s."),
+        Field("Surface layer thickness", _LEN, False, "positive", "Replaces the surface layer thickness h_s."),
+        Field("Fault current", "current", False, "positive", "Replaces the fault current 3I0."),
+        Field("Split factor", "number", False, "fraction", "Replaces the split factor Sf."),
+        Field(
+            "Fault duration",
+            "time",
+            False,
+            "positive",
+            "Replaces the fault duration tf (and the shock duration, where that equals the fault duration).",
+        ),
+        Field("Body weight", "mass", False, "positive", "Replaces the body weight: 50 or 70 kg."),
+    ),
+    "Optional variants of the base case, one per row: each names a variant and overrides some of "
+    "the soil, surface-layer and fault inputs (blank cells keep the base value). 'groundcalc run' "
+    "reports the base case and every variant side by side; the geometry is solved once per soil model.",
+)
+
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
-TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER)
-ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER)
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS)
+ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS)
 
 
 def sheet_spec(name: str) -> SheetSpec:

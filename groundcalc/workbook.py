@@ -31,9 +31,10 @@ from .model import (
     Settings,
     Soil,
     SurfaceLayer,
+    Variant,
     WennerReadings,
 )
-from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, WENNER, Field, SheetSpec
+from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, VARIANTS, WENNER, Field, SheetSpec
 from .soilfit import wenner_apparent_resistivity
 from .units import UNITS, normalise_name, split_header, to_si
 
@@ -773,6 +774,75 @@ def _read_wenner(wb) -> WennerReadings | None:
     return WennerReadings(tuple(spacing), tuple(rho), tuple(where), WENNER.name)
 
 
+def _read_variants(wb) -> list[Variant]:
+    """Rows of the optional Variants sheet; any column it does not know is an error."""
+    ws = _find_sheet(wb, VARIANTS.name)
+    if ws is None:
+        return []
+    rows = _rows(ws, MAX_TABLE_ROWS)
+    if not rows:
+        return []
+    for col, h in enumerate(rows[0][1]):
+        if _is_blank(h):
+            continue
+        if VARIANTS.field(split_header(str(h))[0]) is None:
+            raise InputError(
+                f"'{h}' is not a quantity a variant can change",
+                sheet=ws.title,
+                row=1,
+                column=_column_label(str(h), col),
+                fix="Variants may change: " + ", ".join(f"'{f.header()}'" for f in VARIANTS.fields[1:]),
+            )
+    fields = _field_map(VARIANTS)
+    out: list[Variant] = []
+    seen: dict[str, int] = {}
+    for cells in read_table(wb, VARIANTS):
+        row = _row_of(cells)
+        name = value(cells, fields["variant"])
+        if name is None:
+            raise _missing(cells, VARIANTS, fields["variant"], "each variant needs a name")
+        name = str(name).strip()
+        if name.lower() in seen:
+            c = cells["variant"]
+            raise InputError(
+                f"the variant name '{name}' is used twice (rows {seen[name.lower()]} and {row})",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="Give every variant its own name",
+            )
+        seen[name.lower()] = row or 0
+        overrides = {}
+        columns = {}
+        for key, f in fields.items():
+            if key == "variant" or key not in cells:
+                continue
+            v = value(cells, f)
+            if v is not None:
+                overrides[key] = float(v)
+                columns[key] = cells[key].column
+        if not overrides:
+            c = cells["variant"]
+            raise InputError(
+                f"the variant '{name}' changes nothing",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="Fill in at least one quantity to change, or delete the row",
+            )
+        if "body weight" in overrides and round(overrides["body weight"]) not in (50, 70):
+            c = cells["body weight"]
+            raise InputError(
+                f"body weight {overrides['body weight']:g} kg is not 50 or 70",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg; enter 50 or 70",
+            )
+        out.append(Variant(name, overrides, row or 0, columns))
+    return out
+
+
 def read_wenner(path: str | Path) -> WennerReadings:
     """Read the Wenner sheet of a workbook.
 
@@ -826,6 +896,7 @@ def read_design(path: str | Path) -> Design:
         _check_temperature(
             wb, fault, {c.material for c in conductors} | {r.material for r in rods} | {g.material for g in grids}
         )
+        variants = _read_variants(wb)
         wenner = _read_wenner(wb) if soil.model == "fitted" else None
         if soil.model == "fitted" and wenner is None:
             raise InputError(
@@ -861,4 +932,5 @@ def read_design(path: str | Path) -> Design:
         notices=tuple(notices),
         source_name=Path(path).name,
         wenner=wenner,
+        variants=tuple(variants),
     )

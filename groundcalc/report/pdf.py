@@ -419,7 +419,7 @@ def cautions() -> list:
     return [KeepTogether(items)]
 
 
-def write_report(results: Results, path: str | Path, input_name: str, sha256: str) -> None:
+def write_report(results: Results, path: str | Path, input_name: str, sha256: str, variants=None) -> None:
     """Write the PDF report.
 
     Parameters
@@ -432,6 +432,9 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
         Input workbook name for the title block.
     sha256 : str
         SHA-256 of the input workbook.
+    variants : tuple, optional
+        ``(names, summaries, overrides, geometry_solves)`` of the Variants
+        sheet, shown after the summary.
     """
     doc = SimpleDocTemplate(
         str(path),
@@ -447,6 +450,10 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story = []
     story += title_block(results, input_name, sha256)
     story += summary(results)
+    if variants is not None:
+        from .comparison import variants_section
+
+        story += variants_section(*variants)
     story += [PageBreak()]
     story += inputs(results)
     story += soil_fit_section(results)
