@@ -290,6 +290,7 @@ class Settings:
     segment_length_m: float = 1.0
     raster_spacing_m: float | None = None
     margin_m: float = 5.0
+    snap_tolerance_m: float = 0.0
 
 
 @dataclass(frozen=True)

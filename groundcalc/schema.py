@@ -372,6 +372,15 @@ SETTINGS = SheetSpec(
             "voltage outside the grid). Blank = 5 m.",
             "3 to 20 m",
         ),
+        Field(
+            "Snap tolerance",
+            _LEN,
+            False,
+            "nonnegative",
+            "Conductor ends and rod tops that miss another conductor by no more than this are moved "
+            "onto it (each move is reported). Blank = 0: only ends within 1 mm count as joined.",
+            "0 to 0.1 m",
+        ),
     ),
     "Numerical settings. All optional.",
 )

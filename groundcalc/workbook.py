@@ -19,6 +19,7 @@ import openpyxl
 from openpyxl.utils import get_column_letter
 
 from .errors import InputError
+from .geometry import clean_design
 from .materials import DEFAULT_MATERIAL, MATERIALS, material
 from .model import (
     Conductor,
@@ -90,6 +91,40 @@ def open_workbook(path: str | Path):
             f"'{p.name}' could not be read as an .xlsx workbook ({type(exc).__name__}: {exc})",
             fix="Re-save it from a spreadsheet program as 'Excel Workbook (.xlsx)'",
         ) from exc
+
+
+def check_formulas(path: str | Path, wb) -> None:
+    """Refuse formula cells that carry no cached value (they would read as blank).
+
+    A workbook written by a script, or saved by a program that does not
+    calculate, holds formulas without their results; openpyxl cannot
+    calculate them, and reading them as blank would silently change the
+    design.
+    """
+    from .schema import ALL_SHEETS
+
+    fwb = openpyxl.load_workbook(path, read_only=True, data_only=False)
+    try:
+        for spec in ALL_SHEETS:
+            ws, fws = _find_sheet(wb, spec.name), _find_sheet(fwb, spec.name)
+            if ws is None or fws is None:
+                continue
+            rows = zip(ws.iter_rows(values_only=True), fws.iter_rows(values_only=True), strict=False)
+            for r, (vals, forms) in enumerate(rows, start=1):
+                if r > MAX_TABLE_ROWS + 1:
+                    break
+                for c, (v, f) in enumerate(zip(vals, forms, strict=False)):
+                    if v is None and isinstance(f, str) and f.startswith("="):
+                        raise InputError(
+                            f"the cell holds the formula '{f}' but no calculated value",
+                            sheet=ws.title,
+                            row=r,
+                            column=get_column_letter(c + 1),
+                            fix="Open the workbook in a spreadsheet program and save it (that stores the "
+                            "results of formulas), or type the value in",
+                        )
+    finally:
+        fwb.close()
 
 
 def _find_sheet(wb, name: str):
@@ -633,7 +668,17 @@ def _read_settings(wb) -> Settings:
             column=c.column,
             fix="Use 0.05 m or more (0.25 to 1 m is typical), or leave it blank",
         )
-    return Settings(seg, spacing, value(cells, f["margin"], 5.0))
+    snap = value(cells, f["snap tolerance"], 0.0)
+    if snap > 1.0:
+        c = cells[f["snap tolerance"].key]
+        raise InputError(
+            f"snap tolerance {snap:g} m would move conductors by more than a metre",
+            sheet=c.sheet,
+            row=c.row,
+            column=c.column,
+            fix="Use at most 1 m (0.01 to 0.1 m is typical), or fix the coordinates",
+        )
+    return Settings(seg, spacing, value(cells, f["margin"], 5.0), snap)
 
 
 def _field_map(spec: SheetSpec) -> dict[str, Field]:
@@ -853,6 +898,7 @@ def read_wenner(path: str | Path) -> WennerReadings:
     """
     wb = open_workbook(path)
     try:
+        check_formulas(path, wb)
         readings = _read_wenner(wb)
     finally:
         wb.close()
@@ -885,6 +931,7 @@ def read_design(path: str | Path) -> Design:
     """
     wb = open_workbook(path)
     try:
+        check_formulas(path, wb)
         notices: list[Notice] = []
         project = _read_project(wb)
         soil, surface = _read_soil(wb, notices)
@@ -920,7 +967,7 @@ def read_design(path: str | Path) -> Design:
             fix="Enter the grid on the 'Grids' sheet (rectangular grids) or the 'Conductors' "
             "sheet, and rods on the 'Rods' sheet",
         )
-    return Design(
+    design = Design(
         project=project,
         soil=soil,
         surface_layer=surface,
@@ -934,3 +981,4 @@ def read_design(path: str | Path) -> Design:
         wenner=wenner,
         variants=tuple(variants),
     )
+    return clean_design(design, settings.snap_tolerance_m)

@@ -147,7 +147,11 @@ BAD = [
         _set("Grids", "E2", "seventy"),
         ["sheet 'Grids'", "row 2", "'Length Y [m]' (E)", "not a number"],
     ),
-    ("negative-resistivity", _set("Soil", "B3", -400), ["sheet 'Soil'", "row 3", "greater than zero", "Typical"]),
+    (
+        "negative-resistivity",
+        _set("Soil", "B3", -400),
+        ["sheet 'Soil'", "row 3", "greater than zero", "Typical", "(B)"],
+    ),
     (
         "zero-length-conductor",
         lambda wb: wb["Conductors"].append(["Z", 1, 1, 0.5, 1, 1, 0.5, 10]),
@@ -172,23 +176,31 @@ BAD = [
     (
         "unknown-quantity",
         lambda wb: wb["Fault"].append(["Fault curent [A]", 5]),
-        ["sheet 'Fault'", "row 13", "not a known quantity"],
+        ["sheet 'Fault'", "row 13", "not a known quantity", "(A)"],
     ),
-    ("bad-model", _set("Soil", "B2", "three-layer"), ["sheet 'Soil'", "row 2", "Valid values: uniform, two-layer"]),
-    ("body-weight", _set("Fault", "B7", 80), ["sheet 'Fault'", "row 7", "50 or 70"]),
-    ("split-factor", _set("Fault", "B3", 1.5), ["sheet 'Fault'", "row 3", "at most 1"]),
-    ("grid-count", _set("Grids", "F2", 1), ["sheet 'Grids'", "row 2", "at least 2"]),
-    ("fractional-count", _set("Grids", "F2", 2.5), ["sheet 'Grids'", "row 2", "whole number"]),
-    ("blank-required", _set("Fault", "B2", None), ["sheet 'Fault'", "row 2", "required", "blank"]),
-    ("surface-half", _set("Soil", "B6", 2500), ["sheet 'Soil'", "row 7", "Surface layer thickness", "both"]),
-    ("two-layer-missing", _set("Soil", "B2", "two-layer"), ["sheet 'Soil'", "row 4", "Upper thickness", "two-layer"]),
+    (
+        "bad-model",
+        _set("Soil", "B2", "three-layer"),
+        ["sheet 'Soil'", "row 2", "Valid values: uniform, two-layer", "(B)"],
+    ),
+    ("body-weight", _set("Fault", "B7", 80), ["sheet 'Fault'", "row 7", "50 or 70", "(B)"]),
+    ("split-factor", _set("Fault", "B3", 1.5), ["sheet 'Fault'", "row 3", "at most 1", "(B)"]),
+    ("grid-count", _set("Grids", "F2", 1), ["sheet 'Grids'", "row 2", "at least 2", "(F)"]),
+    ("fractional-count", _set("Grids", "F2", 2.5), ["sheet 'Grids'", "row 2", "whole number", "(F)"]),
+    ("blank-required", _set("Fault", "B2", None), ["sheet 'Fault'", "row 2", "required", "blank", "(B)"]),
+    ("surface-half", _set("Soil", "B6", 2500), ["sheet 'Soil'", "row 7", "Surface layer thickness", "both", "(B)"]),
+    (
+        "two-layer-missing",
+        _set("Soil", "B2", "two-layer"),
+        ["sheet 'Soil'", "row 4", "Upper thickness", "two-layer", "(B)"],
+    ),
     ("no-conductors", lambda wb: wb["Grids"].delete_rows(2), ["no conductors", "Grids"]),
     (
         "date-in-number",
         _set("Grids", "B2", __import__("datetime").datetime(2024, 1, 1)),
         ["sheet 'Grids'", "row 2", "not a number"],
     ),
-    ("segment-too-long", _set("Settings", "B2", 50), ["sheet 'Settings'", "row 2", "at most 5 m"]),
+    ("segment-too-long", _set("Settings", "B2", 50), ["sheet 'Settings'", "row 2", "at most 5 m", "(B)"]),
     (
         "unknown-material",
         _set("Grids", "J2", "brass"),
@@ -197,7 +209,7 @@ BAD = [
     (
         "max-temp-below-ambient",
         lambda wb: (wb["Fault"].__setitem__("B9", 40), wb["Fault"].__setitem__("B10", 30)),
-        ["sheet 'Fault'", "row 10", "not above the ambient temperature 40 degC"],
+        ["sheet 'Fault'", "row 10", "not above the ambient temperature 40 degC", "(B)"],
     ),
     (
         # IEEE Std 80-2000 Table 1: zinc-coated steel rod fuses at 419 degC [mem]
@@ -206,9 +218,49 @@ BAD = [
             wb["Rods"].append(["R1", 0, 0, 0.5, 3, 16, "zinc-coated steel rod"]),
             wb["Fault"].__setitem__("B10", 450),
         ),
-        ["sheet 'Fault'", "row 10", "above the fusing temperature of zinc-coated steel rod (419 degC)"],
+        ["sheet 'Fault'", "row 10", "above the fusing temperature of zinc-coated steel rod (419 degC)", "(B)"],
     ),
-    ("negative-touch-limit", _set("Fault", "B11", -100), ["sheet 'Fault'", "row 11", "greater than zero"]),
+    ("negative-touch-limit", _set("Fault", "B11", -100), ["sheet 'Fault'", "row 11", "greater than zero", "(B)"]),
+    (
+        "formula-without-value",
+        _set("Grids", "D2", "=10*7"),
+        ["sheet 'Grids'", "row 2", "column D", "no calculated value", "save it"],
+    ),
+    ("spreadsheet-error", _set("Grids", "E2", "#DIV/0!"), ["sheet 'Grids'", "row 2", "(E)", "spreadsheet error"]),
+    ("infinite", _set("Grids", "E2", "inf"), ["sheet 'Grids'", "row 2", "(E)", "not a finite number"]),
+    ("rod-zero-length", lambda wb: wb["Rods"].append(["R", 0, 0, 0.5, 0, 16]), ["sheet 'Rods'", "row 2", "(E)"]),
+    ("rod-bad-diameter", lambda wb: wb["Rods"].append(["R", 0, 0, 0.5, 3, -16]), ["sheet 'Rods'", "row 2", "(F)"]),
+    ("negative-duration", _set("Fault", "B5", -0.5), ["sheet 'Fault'", "row 5", "(B)", "greater than zero"]),
+    ("xr-text", _set("Fault", "B4", "high"), ["sheet 'Fault'", "row 4", "(B)", "not a number"]),
+    ("negative-margin", _set("Settings", "B4", -2), ["sheet 'Settings'", "row 4", "(B)"]),
+    ("raster-too-fine", _set("Settings", "B3", 0.001), ["sheet 'Settings'", "row 3", "(B)", "finer than needed"]),
+    ("snap-too-large", _set("Settings", "B5", 5), ["sheet 'Settings'", "row 5", "(B)", "more than a metre"]),
+    (
+        "bad-rod-material",
+        lambda wb: wb["Rods"].append(["R", 0, 0, 0.5, 3, 16, "wood"]),
+        ["sheet 'Rods'", "row 2", "(G)", "not a known conductor material"],
+    ),
+    (
+        "conductor-text-x",
+        lambda wb: wb["Conductors"].append(["C", "ten", 0, 0.5, 5, 0, 0.5, 10]),
+        ["sheet 'Conductors'", "row 2", "(B)", "not a number"],
+    ),
+    (
+        "surface-negative",
+        lambda wb: (wb["Soil"].__setitem__("B6", -3000), wb["Soil"].__setitem__("B7", 0.1)),
+        ["sheet 'Soil'", "row 6", "(B)"],
+    ),
+    (
+        "lower-resistivity-text",
+        lambda wb: (
+            wb["Soil"].__setitem__("B2", "two-layer"),
+            wb["Soil"].__setitem__("B4", 3),
+            wb["Soil"].__setitem__("B5", "wet"),
+        ),
+        ["sheet 'Soil'", "row 5", "(B)", "not a number"],
+    ),
+    ("grid-depth-zero", _set("Grids", "H2", 0), ["sheet 'Grids'", "row 2", "(H)"]),
+    ("frequency-negative", _set("Fault", "B8", -50), ["sheet 'Fault'", "row 8", "(B)"]),
 ]
 
 
@@ -335,3 +387,12 @@ def test_wenner_spacing_in_feet(tmp_path):
     header = ["Spacing [ft]", "Resistance [ohm]", "Apparent resistivity [ohm*m]", "Pin depth [ft]"]
     p = _wenner_book(tmp_path / "w.xlsx", [[10, None, 100], [20, None, 120], [40, None, 150]], header=header)
     assert read_wenner(p).spacing_m == pytest.approx((3.048, 6.096, 12.192))
+
+
+def test_at_least_25_malformed_workbooks_name_sheet_row_and_column():
+    # The hardening target: 25 or more malformed workbooks whose messages give sheet, row and column.
+    import re
+
+    full = [b for b in BAD if any("sheet '" in w for w in b[2]) and any(re.match(r"row \d", w) for w in b[2])]
+    with_column = [b for b in full if any(("(" in w and ")" in w) or w.startswith("column ") for w in b[2])]
+    assert len(BAD) >= 25 and len(with_column) >= 25
