@@ -194,37 +194,9 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
             if single:
                 # one image (uniform soil): the same corrected mid-point rule, written in place
                 vals, d2 = _single_image_far(pp, mid, e, c2, l2c, img.weight_ohm_m / (4.0 * np.pi))
-                general = (d2 < (FAR_RATIO * FAR_RATIO) * (length * length)[None, :]) | ~ok[None, :]
-                if general.any():
-                    pi, sj = np.nonzero(general)
-                    p3 = np.zeros((pi.size, 3))
-                    p3[:, :2] = pp[pi]
-                    vals[pi, sj] = _point_segment_general(p3, seg, greens, kern, sel[sj])
-                out[p0 : p0 + rows] += vals @ q
-                continue
-            dx = pp[:, 0, None] - mid[None, :, 0]
-            dy = pp[:, 1, None] - mid[None, :, 1]
-            d2 = dx * dx + dy * dy
-            ps = dx * e[None, :, 0] + dy * e[None, :, 1]
-            s1 = np.zeros(d2.shape)
-            s3 = np.zeros(d2.shape)
-            s5 = np.zeros(d2.shape)
-            for img in kern.direct_images:
-                dz = img.map_depth(zs)[None, :]
-                rr = d2 + dz * dz + r2[None, :]
-                inv = 1.0 / np.sqrt(rr)
-                inv3 = inv / rr
-                s1 += img.weight_ohm_m * inv
-                s3 += img.weight_ohm_m * inv3
-                s5 += img.weight_ohm_m * inv3 / rr
-            for key, cols in groups.items():
-                t1, t3, t5 = greens.radial_surface[(ls, key)](np.sqrt(d2[:, cols]), clamp=True)
-                s1[:, cols] += t1
-                s3[:, cols] += t3
-                s5[:, cols] += t5
-            l2 = (length * length)[None, :]
-            vals = (s1 + (l2 / 24.0) * (3.0 * ps * ps * s5 - s3)) / (4.0 * np.pi)
-            general = (d2 < (FAR_RATIO * FAR_RATIO) * l2) | ~ok[None, :]
+            else:
+                vals, d2 = _images_far(pp, mid, e, zs, r2, length, kern, groups, greens, ls)
+            general = (d2 < (FAR_RATIO * FAR_RATIO) * (length * length)[None, :]) | ~ok[None, :]
             if general.any():
                 pi, sj = np.nonzero(general)
                 p3 = np.zeros((pi.size, 3))
@@ -232,6 +204,32 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
                 vals[pi, sj] = _point_segment_general(p3, seg, greens, kern, sel[sj])
             out[p0 : p0 + rows] += vals @ q
     return out
+
+
+def _images_far(pp, mid, e, zs, r2, length, kern, groups, greens, ls):
+    """Corrected mid-point rule summed over the leading images and the tabulated rest; also d^2."""
+    dx = pp[:, 0, None] - mid[None, :, 0]
+    dy = pp[:, 1, None] - mid[None, :, 1]
+    d2 = dx * dx + dy * dy
+    ps = dx * e[None, :, 0] + dy * e[None, :, 1]
+    s1 = np.zeros(d2.shape)
+    s3 = np.zeros(d2.shape)
+    s5 = np.zeros(d2.shape)
+    for img in kern.direct_images:
+        dz = img.map_depth(zs)[None, :]
+        rr = d2 + dz * dz + r2[None, :]
+        inv = 1.0 / np.sqrt(rr)
+        inv3 = inv / rr
+        s1 += img.weight_ohm_m * inv
+        s3 += img.weight_ohm_m * inv3
+        s5 += img.weight_ohm_m * inv3 / rr
+    for key, cols in groups.items():
+        t1, t3, t5 = greens.radial_surface[(ls, key)](np.sqrt(d2[:, cols]), clamp=True)
+        s1[:, cols] += t1
+        s3[:, cols] += t3
+        s5[:, cols] += t5
+    l2 = (length * length)[None, :]
+    return (s1 + (l2 / 24.0) * (3.0 * ps * ps * s5 - s3)) / (4.0 * np.pi), d2
 
 
 @dataclass(frozen=True)
