@@ -93,22 +93,27 @@ def open_workbook(path: str | Path):
         ) from exc
 
 
-def check_formulas(path: str | Path, wb) -> None:
-    """Refuse formula cells that carry no cached value (they would read as blank).
+def check_formulas(path: str | Path, wb, notices: list[Notice] | None = None) -> None:
+    """Refuse formula cells without a cached value and merged cells; note hidden rows that are read.
 
     A workbook written by a script, or saved by a program that does not
     calculate, holds formulas without their results; openpyxl cannot
     calculate them, and reading them as blank would silently change the
-    design.
+    design. A merged cell keeps its value in its first cell only, so the
+    other rows it covers would read as blank. Hidden rows are read like any
+    other (hiding is not deleting), with a note.
     """
     from .schema import ALL_SHEETS
 
-    fwb = openpyxl.load_workbook(path, read_only=True, data_only=False)
+    large = Path(path).stat().st_size > 2_000_000
+    fwb = openpyxl.load_workbook(path, read_only=large, data_only=False)
     try:
         for spec in ALL_SHEETS:
             ws, fws = _find_sheet(wb, spec.name), _find_sheet(fwb, spec.name)
             if ws is None or fws is None:
                 continue
+            if not large:
+                _check_layout(fws, notices)
             rows = zip(ws.iter_rows(values_only=True), fws.iter_rows(values_only=True), strict=False)
             for r, (vals, forms) in enumerate(rows, start=1):
                 if r > MAX_TABLE_ROWS + 1:
@@ -125,6 +130,29 @@ def check_formulas(path: str | Path, wb) -> None:
                         )
     finally:
         fwb.close()
+
+
+def _check_layout(ws, notices: list[Notice] | None) -> None:
+    """Merged cells are refused; hidden rows with content get a note."""
+    for rng in ws.merged_cells.ranges:
+        raise InputError(
+            f"the cells {rng.coord} are merged",
+            sheet=ws.title,
+            row=rng.min_row,
+            column=get_column_letter(rng.min_col),
+            fix="Unmerge them and give every row and column its own value",
+        )
+    if notices is None:
+        return
+    hidden = [r for r, dim in ws.row_dimensions.items() if dim.hidden and any(c.value is not None for c in ws[r])]
+    if hidden:
+        notices.append(
+            Notice(
+                "hidden-rows",
+                f"Sheet '{ws.title}': hidden row(s) {', '.join(map(str, sorted(hidden)[:10]))} were read like the "
+                "others (hiding a row does not remove it; delete rows that are not part of the design).",
+            )
+        )
 
 
 def _find_sheet(wb, name: str):
@@ -931,8 +959,8 @@ def read_design(path: str | Path) -> Design:
     """
     wb = open_workbook(path)
     try:
-        check_formulas(path, wb)
         notices: list[Notice] = []
+        check_formulas(path, wb, notices)
         project = _read_project(wb)
         soil, surface = _read_soil(wb, notices)
         fault = _read_fault(wb, notices)

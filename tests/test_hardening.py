@@ -122,6 +122,16 @@ def test_non_ascii_labels_blank_trailing_rows_and_text_numbers(tmp_path):
     assert d.grids[0].label == "Schaltanlage Süd – Ω" and d.grids[0].length_y_m == 20.0
 
 
+def test_hidden_rows_are_read_with_a_note(tmp_path):
+    p = write_workbook(tmp_path / "d.xlsx", grids=[["G", 0, 0, 20, 20, 3, 3, 0.5, 10]], rods=[["R1", 0, 0, 0.5, 3, 16]])
+    wb = openpyxl.load_workbook(p)
+    wb["Rods"].row_dimensions[2].hidden = True
+    wb.save(p)
+    d = read_design(p)
+    assert len(d.rods) == 1
+    assert any(n.code == "hidden-rows" and "Rods" in n.message and "2" in n.message for n in d.notices)
+
+
 def test_very_large_sheet_gets_a_limit_message(tmp_path, capsys):
     p = write_workbook(tmp_path / "big.xlsx", grids=[["G", 0, 0, 20, 20, 3, 3, 0.5, 10]])
     wb = openpyxl.load_workbook(p)

@@ -260,6 +260,15 @@ BAD = [
         ["sheet 'Soil'", "row 5", "(B)", "not a number"],
     ),
     ("grid-depth-zero", _set("Grids", "H2", 0), ["sheet 'Grids'", "row 2", "(H)"]),
+    (
+        "merged-cells",
+        lambda wb: (
+            wb["Rods"].append(["R1", 0, 0, 0.5, 3, 16]),
+            wb["Rods"].append([None, 5, 0, 0.5, 3, 16]),
+            wb["Rods"].merge_cells("A2:A3"),
+        ),
+        ["sheet 'Rods'", "row 2", "column A", "A2:A3 are merged", "Unmerge"],
+    ),
     ("frequency-negative", _set("Fault", "B8", -50), ["sheet 'Fault'", "row 8", "(B)"]),
 ]
 
