@@ -152,6 +152,8 @@ def summarise_file(path: str) -> DesignSummary:
         return summarise(analyse(design), name, str(path))
     except InputError as exc:
         return DesignSummary(name=name, source=str(path), error=str(exc))
+    except Exception as exc:  # one failed design must not lose the others' results
+        return DesignSummary(name=name, source=str(path), error=f"internal error ({type(exc).__name__}: {exc})")
 
 
 def summarise_design(item: tuple[str, Design]) -> DesignSummary:

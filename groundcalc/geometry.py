@@ -212,7 +212,6 @@ def _check_extent(design: Design, notices: list) -> None:
         if np.any(np.abs(pts[:, :2]) > MAX_COORDINATE_M):
             raise InputError(
                 f"conductor '{c.label}' has a plan coordinate beyond {MAX_COORDINATE_M:,.0f} m",
-                sheet=c.source.split(" row")[0] if c.source else None,
                 fix="Use local site coordinates (or check the units of the X and Y columns)",
             )
         zmax = float(pts[:, 2].max())

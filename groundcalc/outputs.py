@@ -405,6 +405,9 @@ def write_design_with_layout(source: str | Path, target: str | Path, grid, added
     ws.cell(row=row, column=cols["conductors along x"], value=grid.n_along_x)
     ws.cell(row=row, column=cols["conductors along y"], value=grid.n_along_y)
     rods_ws = sheet(RODS)
+    if rods_ws is None:
+        rods_ws = wb.create_sheet(RODS.name)
+        rods_ws.append([f.header() for f in RODS.fields])
     rcols = columns(rods_ws)
     scale = {}
     for c in rods_ws[1]:
