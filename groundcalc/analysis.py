@@ -109,7 +109,7 @@ def surface_field(design: Design, geometry: GeometryResult) -> FieldResult:
     seg = sol.segments
     pts = np.concatenate([seg.a[:, :2], seg.b[:, :2]])
     extent = float(np.max(pts.max(axis=0) - pts.min(axis=0)))
-    spacing = design.settings.raster_spacing_m or auto_raster_spacing(extent)
+    spacing = design.settings.raster_spacing_m or auto_raster_spacing(extent, design.settings.segment_length_m)
     footprint = compute_footprint(lines)
     reach = np.concatenate([seg.a[:, None, :2], seg.b[:, None, :2]], axis=1)
     area = TouchArea(footprint, reach)

@@ -11,8 +11,9 @@ search so the reported values do not depend much on the raster spacing.
 from __future__ import annotations
 
 import logging
+import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import scipy.ndimage
@@ -20,7 +21,8 @@ import scipy.optimize
 
 from .assembly import horizontal_mask
 from .footprint import Footprint
-from .kernels import FAR_RATIO, gauss_legendre_unit, line_integral
+from .kernels import FAR_MARGIN, FAR_RATIO, gauss_legendre_unit, line_integral
+from .segments import Segments
 from .solver import Solution
 from .twolayer import depth_key
 
@@ -196,7 +198,7 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
                 vals, d2 = _single_image_far(pp, mid, e, c2, l2c, img.weight_ohm_m / (4.0 * np.pi))
             else:
                 vals, d2 = _images_far(pp, mid, e, zs, r2, length, kern, groups, greens, ls)
-            general = (d2 < (FAR_RATIO * FAR_RATIO) * (length * length)[None, :]) | ~ok[None, :]
+            general = (d2 < (FAR_RATIO * FAR_RATIO) * FAR_MARGIN * (length * length)[None, :]) | ~ok[None, :]
             if general.any():
                 pi, sj = np.nonzero(general)
                 p3 = np.zeros((pi.size, 3))
@@ -289,14 +291,104 @@ class Raster:
     spacing_m: float
 
 
-def auto_raster_spacing(extent_m: float) -> float:
+#: Segments of one class on one raster offset needed before their potential is convolved.
+LATTICE_MIN_GROUP = 16
+
+
+def _subset(solution: Solution, idx: np.ndarray, currents: np.ndarray | None = None) -> Solution:
+    """The solution restricted to segments ``idx`` (optionally with other currents)."""
+    seg = solution.segments
+    sub = Segments(seg.a[idx], seg.b[idx], seg.radius[idx], seg.conductor[idx], seg.layer[idx])
+    cur = solution.unit_currents_a[idx] if currents is None else currents
+    return replace(solution, segments=sub, unit_currents_a=cur)
+
+
+def _convolve_full(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Full 2-D linear convolution of real arrays by FFT."""
+    import scipy.fft
+
+    shape = [a.shape[k] + b.shape[k] - 1 for k in (0, 1)]
+    fast = [scipy.fft.next_fast_len(n, real=True) for n in shape]
+    prod = scipy.fft.rfft2(a, fast) * scipy.fft.rfft2(b, fast)
+    return scipy.fft.irfft2(prod, fast)[: shape[0], : shape[1]]
+
+
+def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: float) -> np.ndarray:
+    """Surface potential on the regular raster ``x`` by ``y`` (shape (len(y), len(x))). [V]
+
+    Notes
+    -----
+    Segments that are shifted copies of one another (a class of
+    :func:`groundcalc.assembly.segment_classes`) and whose mid points sit at
+    the same fractional position within the raster cells contribute a
+    discrete convolution of their currents with one kernel table: the
+    potential of one such segment at every raster offset, evaluated once by
+    :func:`surface_potential`. The convolution is done by FFT
+    (``scipy.fft``); other segments are summed directly. Both
+    give the same values to round-off (tests/test_surface.py).
+    """
+    from .assembly import segment_classes
+
+    seg = solution.segments
+    nx, ny = x.size, y.size
+    xx, yy = np.meshgrid(x, y)
+    flat = np.column_stack([xx.ravel(), yy.ravel()])
+    if nx < 2 or ny < 2 or len(seg) < LATTICE_MIN_GROUP:
+        return surface_potential(flat, solution, gpr_v).reshape(ny, nx)
+    sx, sy = x[1] - x[0], y[1] - y[0]
+    mid = seg.mid
+    ux = (mid[:, 0] - x[0]) / sx
+    uy = (mid[:, 1] - y[0]) / sy
+    kx, ky = np.floor(ux + 1e-7), np.floor(uy + 1e-7)
+    fx, fy = np.round(ux - kx, 9), np.round(uy - ky, 9)
+    cls = segment_classes(seg)
+    key = np.column_stack([cls, np.rint(fx * 1e9), np.rint(fy * 1e9)]).astype(np.int64)
+    _, group = np.unique(key, axis=0, return_inverse=True)
+    group = group.reshape(-1)
+    sizes = np.bincount(group)
+    out = np.zeros((ny, nx))
+    direct = np.flatnonzero(sizes[group] < LATTICE_MIN_GROUP)
+    current = solution.unit_currents_a * gpr_v
+    for g in np.flatnonzero(sizes >= LATTICE_MIN_GROUP):
+        idx = np.flatnonzero(group == g)
+        ix, iy = kx[idx].astype(np.int64), ky[idx].astype(np.int64)
+        x0i, x1i, y0i, y1i = ix.min(), ix.max(), iy.min(), iy.max()
+        q = np.zeros((y1i - y0i + 1, x1i - x0i + 1))
+        np.add.at(q, (iy - y0i, ix - x0i), current[idx])
+        # kernel: one segment of the group at raster offsets dx = i - k for i in raster, k in group
+        dxs = np.arange(-x1i, nx - x0i)
+        dys = np.arange(-y1i, ny - y0i)
+        # raster point i lies (i - k) cells from a segment in cell k; for the reference segment that
+        # point is the raster coordinate shifted by the reference's own cell
+        ref = idx[0]
+        px = x[0] + (dxs + kx[ref]) * sx
+        py = y[0] + (dys + ky[ref]) * sy
+        gx, gy = np.meshgrid(px, py)
+        one = _subset(solution, idx[:1], np.ones(1))
+        kern = surface_potential(np.column_stack([gx.ravel(), gy.ravel()]), one, 1.0).reshape(dys.size, dxs.size)
+        full = _convolve_full(q, kern)
+        # full[a, b] pairs q index (iy - y0i, ix - x0i) with kernel index (j - iy + y1i, i - ix + x1i):
+        # raster row j sits at a = j + y1i - y0i, column i at b = i + x1i - x0i
+        out += full[y1i - y0i : y1i - y0i + ny, x1i - x0i : x1i - x0i + nx]
+    if direct.size:
+        out += surface_potential(flat, _subset(solution, direct), gpr_v).reshape(ny, nx)
+    return out
+
+
+def auto_raster_spacing(extent_m: float, segment_length_m: float | None = None) -> float:
     """Default raster spacing from the plan extent of the grid.
 
     Aims at about 200 raster lines across the grid, but no finer than 0.25 m
     and no coarser than 1 m (common practice: touch peaks sit in mesh
-    centres a few metres wide and are refined locally afterwards). [m]
+    centres a few metres wide and are refined locally afterwards). With a
+    segment length, the spacing is rounded down to a whole fraction of it, so
+    that repeated segments sit alike in the raster cells and their potential
+    can be convolved (:func:`raster_potential`). [m]
     """
-    return float(np.clip(extent_m / 200.0, 0.25, 1.0))
+    s = float(np.clip(extent_m / 200.0, 0.25, 1.0))
+    if segment_length_m:
+        s = segment_length_m / math.ceil(segment_length_m / s - 1e-9)
+    return s
 
 
 def build_raster(
@@ -336,7 +428,7 @@ def build_raster(
     xx, yy = np.meshgrid(x, y)
     flat = np.column_stack([xx.ravel(), yy.ravel()])
     log.info("surface potential on %d x %d raster (%.2f m)", nx, ny, spacing_m)
-    pot = surface_potential(flat, solution, gpr_v).reshape(ny, nx)
+    pot = raster_potential(x, y, solution, gpr_v)
     mask = touch_area.contains(flat).reshape(ny, nx)
     return Raster(x, y, pot, mask, touch_area, spacing_m)
 

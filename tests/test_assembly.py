@@ -143,3 +143,26 @@ def test_reuse_with_irregular_conductors_mixed_in():
     iu = np.triu_indices(len(seg))
     assert stats.method == "reuse of repeated geometry" and 0 < stats.reused_pairs < stats.pairs
     assert np.max(np.abs(z[iu] / z0[iu] - 1)) < 1e-9
+
+
+@pytest.mark.parametrize("soil", SOILS, ids=["uniform", "K+0.9", "K-0.9"])
+@pytest.mark.parametrize("spacing", [0.5, 0.37])
+def test_raster_convolution_equals_direct_sum(soil, spacing):
+    # The raster potential by convolution of repeated segments (FFT) against the direct sum over every
+    # point-segment pair: the same to round-off (1e-12 of the GPR). 0.37 m is not commensurate with
+    # the 1 m segments, so that case is summed directly.
+    design = make_design(grids=GRID, rods=RODS, soil=soil, segment=1.0)
+    sol = __import__("groundcalc.analysis", fromlist=["solve_geometry"]).solve_geometry(design).solution
+    x = np.arange(-4.0, 28.0, spacing)
+    y = np.arange(-4.0, 22.0, spacing)
+    conv = surface.raster_potential(x, y, sol, 1.0)
+    xx, yy = np.meshgrid(x, y)
+    plain = surface.surface_potential(np.column_stack([xx.ravel(), yy.ravel()]), sol, 1.0).reshape(conv.shape)
+    assert np.max(np.abs(conv - plain)) < 1e-12
+
+
+def test_auto_raster_spacing_is_a_fraction_of_the_segment_length():
+    assert surface.auto_raster_spacing(110.0, 1.0) == pytest.approx(0.5)
+    assert surface.auto_raster_spacing(72.0, 1.0) == pytest.approx(1 / 3)
+    assert surface.auto_raster_spacing(72.0) == pytest.approx(0.36)
+    assert 0.25 <= surface.auto_raster_spacing(1000.0, 2.0) <= 1.0
