@@ -100,7 +100,7 @@ def potential_figure(results: Results, style, max_height: float = 115 * mm) -> l
     fig.markers = _markers(results)
     fig.set_colour_bar(ColourBar(lo, hi, "Earth-surface potential [V]", [(results.gpr_v, "GPR")]))
     text = (
-        f"Earth-surface potential at a GPR of {results.gpr_v:,.0f} V on a {results.field.raster.spacing_m:g} m "
+        f"Earth-surface potential at a GPR of {results.gpr_v:,.0f} V on a {results.field.raster.spacing_m:.3g} m "
         f"raster ({pot.shape[1]} x {pot.shape[0]} points). "
         + (
             "Hatching: inside the footprint, where the touch voltage exceeds the tolerable "

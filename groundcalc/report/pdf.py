@@ -223,7 +223,7 @@ def inputs(results: Results) -> list:
         ["Horizontal conductors", f"{len(conductors)}, total {sum(c.length_m for c in conductors):,.1f} m"],
         ["Rods", f"{len(d.rods)}, total {sum(r.length_m for r in d.rods):,.1f} m"],
         ["Segments (target length)", f"{len(seg)} ({d.settings.segment_length_m:g} m)"],
-        ["Surface raster spacing, margin", f"{results.field.raster.spacing_m:g} m, {d.settings.margin_m:g} m"],
+        ["Surface raster spacing, margin", f"{results.field.raster.spacing_m:.3g} m, {d.settings.margin_m:g} m"],
         ["Soil Green's function", Paragraph(results.geometry.solution.greens.description, SMALL)],
         [
             "Image terms (explicit / all)",
@@ -395,7 +395,7 @@ def assumptions(results: Results) -> list:
         "constant leakage current per metre; the conductors are thin wires at one potential (the GPR), "
         "with no conductor impedance.",
         f"Soil: {sol.greens.description}. Real soil varies sideways and with season.",
-        f"Surface potential on a {results.field.raster.spacing_m:g} m raster over the grid and a "
+        f"Surface potential on a {results.field.raster.spacing_m:.3g} m raster over the grid and a "
         f"{d.settings.margin_m:g} m margin; the worst points are refined by a local search, but a peak narrower "
         "than the raster can be missed.",
         f"Touch voltage is assessed over the {results.field.raster.touch_area.description}; metal outside it "
