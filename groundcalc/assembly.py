@@ -560,9 +560,8 @@ def assemble(segments: Segments, greens: Greens, stats: AssemblyStats | None = N
     stats.pairs = n * (n + 1) // 2
     cls = segment_classes(segments) if n else np.zeros(0, dtype=np.int64)
     stats.classes = int(cls.max()) + 1 if n else 0
-    sizes = np.bincount(cls) if n else np.zeros(0, dtype=np.int64)
     big = [c for c in _class_table(segments, cls) if c.idx.size >= MIN_CLASS_SIZE] if n >= 64 else []
-    if not big or len(big) > MAX_CLASSES or sizes.max() < MIN_CLASS_SIZE:
+    if not big or len(big) > MAX_CLASSES:
         stats.method = "direct"
         stats.evaluated = stats.pairs
         return _assemble_direct(segments, greens)

@@ -114,14 +114,11 @@ def closed_form_lines(results) -> list[str]:
 
 def _cmd_run(args: argparse.Namespace) -> int:
     from .analysis import analyse
-    from .outputs import atomic_write, check_output, file_sha256, results_to_dict, write_json
+    from .outputs import atomic_write, file_sha256, results_to_dict, write_json
     from .workbook import read_design
 
     inputs = [args.workbook]
-    report = check_output(args.report, inputs, args.overwrite, "report") if args.report else None
-    json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
-    if report and json_out and report.resolve() == json_out.resolve():
-        raise InputError("the report and JSON outputs are the same file", fix="Give them different names")
+    report, json_out = _output_paths(args, inputs)
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
@@ -225,11 +222,21 @@ def _jobs(value: str) -> int:
     return n
 
 
-def _write_side_by_side(args, inputs, summaries, ranks, title, intro, first, extra_json=None) -> None:
-    from .outputs import atomic_write, check_output, write_json
+def _output_paths(args, inputs) -> tuple[Path | None, Path | None]:
+    """Checked ``--report`` and ``--json`` paths (refused before any work if unusable)."""
+    from .outputs import check_output
 
-    json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
     report = check_output(args.report, inputs, args.overwrite, "report") if args.report else None
+    json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
+    if report and json_out and report.resolve() == json_out.resolve():
+        raise InputError("the report and JSON outputs are the same file", fix="Give them different names")
+    return report, json_out
+
+
+def _write_side_by_side(outputs, summaries, ranks, title, intro, first, extra_json=None) -> None:
+    from .outputs import atomic_write, write_json
+
+    report, json_out = outputs
     if json_out:
         from .cautions import CAUTIONS, DRAFT_MARK
 
@@ -250,21 +257,11 @@ def _write_side_by_side(args, inputs, summaries, ranks, title, intro, first, ext
         log.info("wrote %s", report)
 
 
-def _check_outputs_early(args, inputs) -> None:
-    from .outputs import check_output
-
-    for what, path in (("JSON", args.json), ("report", args.report)):
-        if path:
-            check_output(path, inputs, args.overwrite, what)
-    if args.json and args.report and Path(args.json).resolve() == Path(args.report).resolve():
-        raise InputError("the report and JSON outputs are the same file", fix="Give them different names")
-
-
 def _cmd_compare(args: argparse.Namespace) -> int:
     from .compare import default_jobs, rank, run_parallel, summarise_file, table_lines
 
     inputs = list(args.workbooks)
-    _check_outputs_early(args, inputs)
+    outputs = _output_paths(args, inputs)
     jobs = args.jobs or default_jobs()
     log.info("analysing %d designs in %d worker process(es)", len(inputs), min(jobs, len(inputs)))
     summaries = run_parallel(summarise_file, [str(p) for p in inputs], jobs)
@@ -276,8 +273,7 @@ def _cmd_compare(args: argparse.Namespace) -> int:
     else:
         print("\nNo design passes.")
     _write_side_by_side(
-        args,
-        inputs,
+        outputs,
         summaries,
         ranks,
         "Grounding designs side by side - draft",
@@ -299,7 +295,7 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     from .workbook import read_design
 
     inputs = [args.workbook]
-    _check_outputs_early(args, inputs)
+    outputs = _output_paths(args, inputs)
     design_out = check_output(args.write_design, inputs, args.overwrite, "design") if args.write_design else None
     if design_out is not None and design_out.suffix.lower() != ".xlsx":
         raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-swept.xlsx")
@@ -343,8 +339,7 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     if design_out and best is None:
         print(f"{design_out} not written: no layout passes")
     _write_side_by_side(
-        args,
-        inputs,
+        outputs,
         summaries,
         ranks,
         "Grid layout sweep - draft",
@@ -356,6 +351,17 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     )
     _print_cautions()
     return 0
+
+
+def _add_common(p: argparse.ArgumentParser, report: str | None, json_help: str, jobs: bool = False) -> None:
+    """Options shared by the analysis commands."""
+    if report:
+        p.add_argument("--report", metavar="PDF", help=report)
+    p.add_argument("--json", metavar="JSON", help=json_help)
+    if jobs:
+        p.add_argument("--jobs", type=_jobs, default=0, metavar="N", help="worker processes (default: one per core)")
+    p.add_argument("--overwrite", action="store_true", help="replace existing output files")
+    p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -374,27 +380,18 @@ def _parser() -> argparse.ArgumentParser:
 
     r = sub.add_parser("run", help="analyse a design workbook")
     r.add_argument("workbook", help="design workbook (.xlsx)")
-    r.add_argument("--report", metavar="PDF", help="write the draft report to this PDF")
-    r.add_argument("--json", metavar="JSON", help="write machine-readable results to this file")
-    r.add_argument("--overwrite", action="store_true", help="replace existing output files")
-    r.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    _add_common(r, "write the draft report to this PDF", "write machine-readable results to this file")
     r.set_defaults(func=_cmd_run)
 
     s = sub.add_parser("soil", help="fit uniform and two-layer soil models to Wenner readings")
     s.add_argument("workbook", help="workbook with a 'Wenner' sheet (.xlsx)")
     s.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the fitted model")
-    s.add_argument("--json", metavar="JSON", help="write the fit to this file")
-    s.add_argument("--overwrite", action="store_true", help="replace existing output files")
-    s.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    _add_common(s, None, "write the fit to this file")
     s.set_defaults(func=_cmd_soil)
 
     c = sub.add_parser("compare", help="analyse several design workbooks and compare them side by side")
     c.add_argument("workbooks", nargs="+", help="design workbooks (.xlsx)")
-    c.add_argument("--report", metavar="PDF", help="write the side-by-side draft to this PDF")
-    c.add_argument("--json", metavar="JSON", help="write the table to this file")
-    c.add_argument("--jobs", type=_jobs, default=0, metavar="N", help="worker processes (default: one per core)")
-    c.add_argument("--overwrite", action="store_true", help="replace existing output files")
-    c.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    _add_common(c, "write the side-by-side draft to this PDF", "write the table to this file", jobs=True)
     c.set_defaults(func=_cmd_compare)
 
     w = sub.add_parser("sweep", help="vary the spacing and perimeter rods of a rectangular grid")
@@ -404,11 +401,7 @@ def _parser() -> argparse.ArgumentParser:
     w.add_argument("--rod-length", type=float, default=3.0, metavar="M", help="length of the added rods [m] (3)")
     w.add_argument("--rod-diameter", type=float, default=16.0, metavar="MM", help="their diameter [mm] (16)")
     w.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the chosen layout")
-    w.add_argument("--report", metavar="PDF", help="write the sweep table to this PDF")
-    w.add_argument("--json", metavar="JSON", help="write the sweep table to this file")
-    w.add_argument("--jobs", type=_jobs, default=0, metavar="N", help="worker processes (default: one per core)")
-    w.add_argument("--overwrite", action="store_true", help="replace existing output files")
-    w.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    _add_common(w, "write the sweep table to this PDF", "write the sweep table to this file", jobs=True)
     w.set_defaults(func=_cmd_sweep)
     return p
 

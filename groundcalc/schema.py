@@ -419,32 +419,36 @@ WENNER = SheetSpec(
     "'groundcalc soil' and by Model = fitted on the Soil sheet.",
 )
 
+
+def _changes(spec: SheetSpec, name: str, help_text: str) -> Field:
+    """A Variants column: the base sheet's quantity (same unit kind and rule), optional."""
+    from dataclasses import replace
+
+    return replace(spec.field(name.lower()), required=False, help=help_text, typical="")
+
+
 VARIANTS = SheetSpec(
     "Variants",
     "table",
     (
         Field("Variant", "text", True, help="Name of the variant, e.g. 'dry season' or 'future fault level'."),
-        Field("Upper resistivity", "resistivity", False, "positive", "Replaces the soil (or upper-layer) resistivity."),
-        Field(
+        _changes(SOIL, "Upper resistivity", "Replaces the soil (or upper-layer) resistivity."),
+        _changes(
+            SOIL,
             "Upper thickness",
-            _LEN,
-            False,
-            "positive",
             "Replaces the upper-layer thickness H; with 'Lower resistivity' it makes uniform soil two-layer.",
         ),
-        Field("Lower resistivity", "resistivity", False, "positive", "Replaces the lower-layer resistivity."),
-        Field("Surface layer resistivity", "resistivity", False, "positive", "Replaces the surface layer rho_s."),
-        Field("Surface layer thickness", _LEN, False, "positive", "Replaces the surface layer thickness h_s."),
-        Field("Fault current", "current", False, "positive", "Replaces the fault current 3I0."),
-        Field("Split factor", "number", False, "fraction", "Replaces the split factor Sf."),
-        Field(
+        _changes(SOIL, "Lower resistivity", "Replaces the lower-layer resistivity."),
+        _changes(SOIL, "Surface layer resistivity", "Replaces the surface layer rho_s."),
+        _changes(SOIL, "Surface layer thickness", "Replaces the surface layer thickness h_s."),
+        _changes(FAULT, "Fault current", "Replaces the fault current 3I0."),
+        _changes(FAULT, "Split factor", "Replaces the split factor Sf."),
+        _changes(
+            FAULT,
             "Fault duration",
-            "time",
-            False,
-            "positive",
             "Replaces the fault duration tf (and the shock duration, where that equals the fault duration).",
         ),
-        Field("Body weight", "mass", False, "positive", "Replaces the body weight: 50 or 70 kg."),
+        _changes(FAULT, "Body weight", "Replaces the body weight: 50 or 70 kg."),
     ),
     "Optional variants of the base case, one per row: each names a variant and overrides some of "
     "the soil, surface-layer and fault inputs (blank cells keep the base value). 'groundcalc run' "

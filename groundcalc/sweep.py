@@ -11,8 +11,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-import numpy as np
-
 from .errors import InputError
 from .model import Design, GridSpec, Rod
 
@@ -152,8 +150,3 @@ def sweep_layouts(
             name = f"{nxx}x{nyy} conductors, {n_rods} rods"
             out.append(SweepLayout(name, s, dx, dy, nxx, nyy, n_rods, d))
     return out
-
-
-def rods_xy(layout: SweepLayout) -> np.ndarray:
-    """Plan positions of the layout's rods. [m]"""
-    return np.array([[r.x_m, r.y_m] for r in layout.design.rods]).reshape(-1, 2)

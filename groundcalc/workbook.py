@@ -595,15 +595,8 @@ def _read_fault(wb, notices: list[Notice]) -> Fault:
     if weight is None:
         weight = 50.0
         notices.append(Notice("default-used", "Body weight blank: 50 kg used (the more conservative limit).", "note"))
-    elif round(weight) not in (50, 70) or abs(weight - round(weight)) > 1e-9:
-        c = cells[f["body weight"].key]
-        raise InputError(
-            f"body weight must be 50 or 70 kg, got {c.value}",
-            sheet=c.sheet,
-            row=c.row,
-            column=c.column,
-            fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg; enter 50 or 70",
-        )
+    else:
+        _check_body_weight(weight, cells[f["body weight"].key])
     freq = value(cells, f["frequency"])
     if freq is None:
         freq = 60.0
@@ -652,6 +645,18 @@ def _read_fault(wb, notices: list[Notice]) -> Fault:
         limits["touch voltage limit"],
         limits["step voltage limit"],
     )
+
+
+def _check_body_weight(weight: float, cell: Cell) -> None:
+    """IEEE Std 80 gives tolerable voltages for 50 and 70 kg only."""
+    if round(weight) not in (50, 70) or abs(weight - round(weight)) > 1e-9:
+        raise InputError(
+            f"body weight must be 50 or 70 kg, got {cell.value}",
+            sheet=cell.sheet,
+            row=cell.row,
+            column=cell.column,
+            fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg; enter 50 or 70",
+        )
 
 
 def _check_temperature(wb, fault: Fault, materials: set[str]) -> None:
@@ -903,15 +908,8 @@ def _read_variants(wb) -> list[Variant]:
                 column=c.column,
                 fix="Fill in at least one quantity to change, or delete the row",
             )
-        if "body weight" in overrides and round(overrides["body weight"]) not in (50, 70):
-            c = cells["body weight"]
-            raise InputError(
-                f"body weight {overrides['body weight']:g} kg is not 50 or 70",
-                sheet=c.sheet,
-                row=c.row,
-                column=c.column,
-                fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg; enter 50 or 70",
-            )
+        if "body weight" in overrides:
+            _check_body_weight(overrides["body weight"], cells["body weight"])
         out.append(Variant(name, overrides, row or 0, columns))
     return out
 
