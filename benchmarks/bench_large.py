@@ -27,11 +27,11 @@ import scipy.linalg
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from groundcalc.assembly import AssemblyStats, assemble, build_greens  # noqa: E402
+from groundcalc.geometry.segments import segment_conductors  # noqa: E402
 from groundcalc.model import GridSpec, Soil  # noqa: E402
-from groundcalc.segments import segment_conductors  # noqa: E402
-from groundcalc.solver import solve  # noqa: E402
-from groundcalc.surface import surface_potential  # noqa: E402
+from groundcalc.mom.assembly import AssemblyStats, assemble, build_greens  # noqa: E402
+from groundcalc.mom.solver import solve  # noqa: E402
+from groundcalc.surface.potential import surface_potential  # noqa: E402
 
 
 def grid_segments(side_m: float, count: int, seg_m: float):

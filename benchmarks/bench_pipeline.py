@@ -21,13 +21,13 @@ import scipy.linalg
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from groundcalc.analysis import plan_lines  # noqa: E402
-from groundcalc.assembly import assemble, build_greens  # noqa: E402
-from groundcalc.footprint import compute_footprint  # noqa: E402
-from groundcalc.segments import segment_conductors  # noqa: E402
-from groundcalc.solver import Solution  # noqa: E402
-from groundcalc.surface import TouchArea, build_raster, find_max_step, find_max_touch, surface_potential  # noqa: E402
-from groundcalc.template import build_template  # noqa: E402
-from groundcalc.workbook import read_design  # noqa: E402
+from groundcalc.geometry.footprint import compute_footprint  # noqa: E402
+from groundcalc.geometry.segments import segment_conductors  # noqa: E402
+from groundcalc.io.template import build_template  # noqa: E402
+from groundcalc.io.workbook import read_design  # noqa: E402
+from groundcalc.mom.assembly import assemble, build_greens  # noqa: E402
+from groundcalc.mom.solver import Solution  # noqa: E402
+from groundcalc.surface.potential import TouchArea, build_raster, find_max_step, find_max_touch, surface_potential  # noqa: E402
 
 
 def annex_b1_workbook(path: Path) -> Path:

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from groundcalc.template import build_template
+from groundcalc.io.template import build_template
 
 HERE = Path(__file__).resolve().parent
 OUT = HERE / "kestrel-brook.xlsx"

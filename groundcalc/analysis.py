@@ -14,16 +14,16 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .assembly import build_greens
-from .designcheck import ClosedForm, ConductorSizing, closed_form_check, conductor_sizing
-from .footprint import compute_footprint
-from .ieee80 import decrement_factor, grid_current_a
+from .geometry.footprint import compute_footprint
+from .geometry.segments import Segmentation, move_off_interface, segment_conductors
 from .model import Design, Notice
-from .safety import Assessment, Limits, assess, tolerable_limits
-from .segments import Segmentation, move_off_interface, segment_conductors
-from .soilfit import SoilFit, fit_soil
-from .solver import Solution, solve
-from .surface import (
+from .mom.assembly import build_greens
+from .mom.solver import Solution, solve
+from .safety.closedform import ClosedForm, ConductorSizing, closed_form_check, conductor_sizing
+from .safety.ieee80 import decrement_factor, grid_current_a
+from .safety.limits import Assessment, Limits, assess, tolerable_limits
+from .soil.wenner import SoilFit, fit_soil
+from .surface.potential import (
     Raster,
     StepResult,
     TouchArea,

@@ -40,8 +40,8 @@ def _print_cautions() -> None:
 
 
 def _cmd_template(args: argparse.Namespace) -> int:
-    from .outputs import atomic_write, check_output
-    from .template import build_template
+    from .io.outputs import atomic_write, check_output
+    from .io.template import build_template
 
     out = check_output(args.path, [], args.overwrite, "template")
     if out.suffix.lower() != ".xlsx":
@@ -90,7 +90,7 @@ def _summary_lines(results) -> list[str]:
 
 def closed_form_lines(results) -> list[str]:
     """IEEE Std 80 closed forms beside the numerical values."""
-    from .outputs import CLOSED_FORM_NOTE, closed_form_rows
+    from .io.outputs import CLOSED_FORM_NOTE, closed_form_rows
 
     cf = results.closed_form
     if cf is None:
@@ -114,8 +114,8 @@ def closed_form_lines(results) -> list[str]:
 
 def _cmd_run(args: argparse.Namespace) -> int:
     from .analysis import analyse
-    from .outputs import atomic_write, file_sha256, results_to_dict, write_json
-    from .workbook import read_design
+    from .io.outputs import atomic_write, file_sha256, results_to_dict, write_json
+    from .io.workbook import read_design
 
     inputs = [args.workbook]
     report, json_out = _output_paths(args, inputs)
@@ -124,8 +124,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
     design = read_design(args.workbook)
     variant_run = None
     if design.variants:
-        from .compare import summarise, table_lines
-        from .variants import run_variants
+        from .studies.compare import summarise, table_lines
+        from .studies.variants import run_variants
 
         log.info("base case and %d variant(s)", len(design.variants))
         variant_run = run_variants(design)
@@ -180,9 +180,9 @@ def soil_fit_lines(fit) -> list[str]:
 
 
 def _cmd_soil(args: argparse.Namespace) -> int:
-    from .outputs import check_output, soil_fit_to_dict, write_design_with_soil, write_json
-    from .soilfit import fit_soil
-    from .workbook import read_wenner
+    from .io.outputs import check_output, soil_fit_to_dict, write_design_with_soil, write_json
+    from .io.workbook import read_wenner
+    from .soil.wenner import fit_soil
 
     inputs = [args.workbook]
     design_out = check_output(args.write_design, inputs, args.overwrite, "design") if args.write_design else None
@@ -224,7 +224,7 @@ def _jobs(value: str) -> int:
 
 def _output_paths(args, inputs) -> tuple[Path | None, Path | None]:
     """Checked ``--report`` and ``--json`` paths (refused before any work if unusable)."""
-    from .outputs import check_output
+    from .io.outputs import check_output
 
     report = check_output(args.report, inputs, args.overwrite, "report") if args.report else None
     json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
@@ -234,7 +234,7 @@ def _output_paths(args, inputs) -> tuple[Path | None, Path | None]:
 
 
 def _write_side_by_side(outputs, summaries, ranks, title, intro, first, extra_json=None) -> None:
-    from .outputs import atomic_write, write_json
+    from .io.outputs import atomic_write, write_json
 
     report, json_out = outputs
     if json_out:
@@ -258,7 +258,7 @@ def _write_side_by_side(outputs, summaries, ranks, title, intro, first, extra_js
 
 
 def _cmd_compare(args: argparse.Namespace) -> int:
-    from .compare import default_jobs, rank, run_parallel, summarise_file, table_lines
+    from .studies.compare import default_jobs, rank, run_parallel, summarise_file, table_lines
 
     inputs = list(args.workbooks)
     outputs = _output_paths(args, inputs)
@@ -289,10 +289,10 @@ def _cmd_compare(args: argparse.Namespace) -> int:
 
 def _cmd_sweep(args: argparse.Namespace) -> int:
     from .analysis import resolve_soil
-    from .compare import default_jobs, rank, run_parallel, summarise_design, table_lines
-    from .outputs import check_output, write_design_with_layout
-    from .sweep import parse_counts, parse_range, sweep_layouts
-    from .workbook import read_design
+    from .io.outputs import check_output, write_design_with_layout
+    from .io.workbook import read_design
+    from .studies.compare import default_jobs, rank, run_parallel, summarise_design, table_lines
+    from .studies.sweep import parse_counts, parse_range, sweep_layouts
 
     inputs = [args.workbook]
     outputs = _output_paths(args, inputs)

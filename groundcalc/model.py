@@ -179,7 +179,7 @@ class Conductor:
     source : str
         Where it came from, e.g. ``"Conductors row 4"``.
     material : str
-        Material name (:data:`groundcalc.materials.MATERIALS`).
+        Material name (:data:`groundcalc.safety.materials.MATERIALS`).
     """
 
     label: str

@@ -81,8 +81,8 @@ def write_workbook(
     the unit) is in the template replaces that row's text, so ``"Fault current [kA]"`` changes
     the unit; other keys are appended as new rows (to test unknown names).
     """
-    from groundcalc.template import build_template
-    from groundcalc.units import split_header
+    from groundcalc.io.template import build_template
+    from groundcalc.io.units import split_header
 
     wb = build_template()
 

@@ -11,15 +11,15 @@ import numpy as np
 import pytest
 import scipy.linalg
 
-import groundcalc.assembly as assembly
-import groundcalc.kernels as kernels
-import groundcalc.solver as solver
-import groundcalc.surface as surface
+import groundcalc.mom.assembly as assembly
+import groundcalc.mom.integrals as kernels
+import groundcalc.mom.solver as solver
+import groundcalc.surface.potential as surface
 from groundcalc.analysis import analyse
-from groundcalc.assembly import AssemblyStats, assemble, build_greens, segment_classes
+from groundcalc.geometry.segments import segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
-from groundcalc.segments import segment_conductors
-from groundcalc.solver import conjugate_gradients
+from groundcalc.mom.assembly import AssemblyStats, assemble, build_greens, segment_classes
+from groundcalc.mom.solver import conjugate_gradients
 
 from .conftest import make_design
 

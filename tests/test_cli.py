@@ -112,7 +112,7 @@ def _fitted_workbook(path):
     import numpy as np
     import openpyxl
 
-    from groundcalc.soilfit import two_layer_wenner
+    from groundcalc.soil.wenner import two_layer_wenner
 
     from .conftest import write_workbook
 
@@ -133,7 +133,7 @@ def test_soil_command_prints_fit_and_writes_design_copy(tmp_path, capsys):
     text = capsys.readouterr().out
     assert "Two-layer model" in text and "RMS misfit" in text and "CAUTION" in text
     assert src.read_bytes() == before  # the input is never changed
-    from groundcalc.workbook import read_design
+    from groundcalc.io.workbook import read_design
 
     d = read_design(out)
     assert d.soil.model == "two-layer"

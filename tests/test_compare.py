@@ -9,11 +9,11 @@ import openpyxl
 import pytest
 from pypdf import PdfReader
 
-import groundcalc.variants as variants_mod
+import groundcalc.studies.variants as variants_mod
 from groundcalc.analysis import analyse
 from groundcalc.cautions import DRAFT_MARK
 from groundcalc.cli import main
-from groundcalc.workbook import read_design
+from groundcalc.io.workbook import read_design
 
 from .conftest import write_workbook
 

@@ -7,9 +7,9 @@ import math
 import pytest
 
 from groundcalc.analysis import analyse, plan_lines
-from groundcalc.designcheck import closed_form_check, conductor_sizing, layout_quantities
-from groundcalc.footprint import compute_footprint
+from groundcalc.geometry.footprint import compute_footprint
 from groundcalc.model import Conductor, Fault, GridSpec, Rod, Soil
+from groundcalc.safety.closedform import closed_form_check, conductor_sizing, layout_quantities
 
 from .conftest import annex_b_grid, annex_b_perimeter_rods, make_design
 

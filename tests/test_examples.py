@@ -5,7 +5,7 @@ import importlib.util
 import openpyxl
 
 from groundcalc.analysis import analyse
-from groundcalc.workbook import read_design
+from groundcalc.io.workbook import read_design
 
 from .conftest import ROOT
 

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from groundcalc.footprint import compute_footprint
+from groundcalc.geometry.footprint import compute_footprint
 from groundcalc.model import GridSpec
 
 

@@ -15,10 +15,10 @@ from pypdf import PdfReader
 from groundcalc.analysis import analyse, solve_geometry
 from groundcalc.cli import main
 from groundcalc.errors import InputError
-from groundcalc.geometry import clean_design
+from groundcalc.geometry.repairs import clean_design
+from groundcalc.io.workbook import read_design
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
-from groundcalc.surface import surface_potential
-from groundcalc.workbook import read_design
+from groundcalc.surface.potential import surface_potential
 
 from .conftest import make_design, write_workbook
 

@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from groundcalc.ieee80 import (
+from groundcalc.safety.ieee80 import (
     decrement_factor,
     grid_current_a,
     surface_layer_factor,
@@ -76,7 +76,7 @@ def test_grid_current_annex_b():
 # intermediates our Eqs. (80) and (92) must reproduce its Em and Es to the printed digit.
 # ---------------------------------------------------------------------------
 
-from groundcalc.ieee80 import (  # noqa: E402
+from groundcalc.safety.ieee80 import (  # noqa: E402
     effective_parallel_count,
     irregularity_factor,
     laurent_niemann_resistance,

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 from scipy.integrate import dblquad, quad
 
-from groundcalc.kernels import (
+from groundcalc.mom.integrals import (
     FAR_RATIO,
     far_pair_integral,
     line_integral,
@@ -91,7 +91,7 @@ def test_far_rule_error_is_bounded():
     sa, sb = centre - 0.5 * ls[:, None] * e, centre + 0.5 * ls[:, None] * e
     r2 = np.full(n, 1e-4)
     exact = pair_integral(oa, ob, sa, sb, r2 * 0 + 1e-4)  # far branch at exactly FAR_RATIO
-    from groundcalc.kernels import _near_pair
+    from groundcalc.mom.integrals import _near_pair
 
     closed = _near_pair(oa, ob - oa, np.ones(n), sa, sb, sb - sa, ls, r2)
     far = far_pair_integral(ob - oa, sb - sa, 0.5 * (oa + ob) - centre, r2)

@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from groundcalc.materials import MATERIALS, kf_constant, material, required_area_mm2
+from groundcalc.safety.materials import MATERIALS, kf_constant, material, required_area_mm2
 
 
 @pytest.mark.parametrize(

@@ -13,8 +13,8 @@ import json
 import pytest
 
 from groundcalc.analysis import analyse
-from groundcalc.outputs import results_to_dict
-from groundcalc.workbook import read_design
+from groundcalc.io.outputs import results_to_dict
+from groundcalc.io.workbook import read_design
 
 from .conftest import ROOT
 

@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
+from groundcalc.geometry.segments import MIN_RADII, segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod
-from groundcalc.segments import MIN_RADII, segment_conductors
 
 
 def ends(seg):

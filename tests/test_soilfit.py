@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from groundcalc.model import WennerReadings
-from groundcalc.soilfit import fit_soil, two_layer_wenner, wenner_apparent_resistivity
+from groundcalc.soil.wenner import fit_soil, two_layer_wenner, wenner_apparent_resistivity
 
 SPACINGS = np.array([1, 2, 3, 5, 7.5, 10, 15, 20, 30, 50.0])
 

@@ -3,11 +3,11 @@
 import numpy as np
 import pytest
 
-from groundcalc.assembly import assemble
-from groundcalc.greens import uniform_greens
+from groundcalc.geometry.segments import segment_conductors
 from groundcalc.model import Conductor, Rod, Soil
-from groundcalc.segments import segment_conductors
-from groundcalc.solver import solve
+from groundcalc.mom.assembly import assemble
+from groundcalc.mom.solver import solve
+from groundcalc.soil.greens import uniform_greens
 
 from .conftest import annex_b_grid
 

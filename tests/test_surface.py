@@ -5,12 +5,12 @@ import pytest
 from scipy.integrate import quad
 
 from groundcalc.analysis import analyse
-from groundcalc.footprint import compute_footprint
-from groundcalc.greens import uniform_greens
+from groundcalc.geometry.footprint import compute_footprint
+from groundcalc.geometry.segments import segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
-from groundcalc.segments import segment_conductors
-from groundcalc.solver import Solution, solve
-from groundcalc.surface import TouchArea, build_raster, find_max_step, find_max_touch, surface_potential
+from groundcalc.mom.solver import Solution, solve
+from groundcalc.soil.greens import uniform_greens
+from groundcalc.surface.potential import TouchArea, build_raster, find_max_step, find_max_touch, surface_potential
 
 from .conftest import make_design
 

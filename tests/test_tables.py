@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from groundcalc.tables import RadialSums, TailTable, series_sums
+from groundcalc.soil.tables import RadialSums, TailTable, series_sums
 
 
 def brute_sum(d, v, k, h, p, terms=20000):

@@ -6,13 +6,13 @@ import pytest
 from scipy.integrate import quad
 
 from groundcalc.analysis import analyse
-from groundcalc.assembly import assemble, build_greens, general_entries
-from groundcalc.kernels import pair_integral
+from groundcalc.geometry.segments import move_off_interface, segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
-from groundcalc.segments import move_off_interface, segment_conductors
-from groundcalc.solver import Solution, solve
-from groundcalc.surface import surface_potential
-from groundcalc.twolayer import point_potential
+from groundcalc.mom.assembly import assemble, build_greens, general_entries
+from groundcalc.mom.integrals import pair_integral
+from groundcalc.mom.solver import Solution, solve
+from groundcalc.soil.twolayer import point_potential
+from groundcalc.surface.potential import surface_potential
 
 from .conftest import make_design
 

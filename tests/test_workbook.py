@@ -10,8 +10,8 @@ import pytest
 from groundcalc.analysis import solve_geometry
 from groundcalc.cli import main
 from groundcalc.errors import InputError
-from groundcalc.template import build_template
-from groundcalc.workbook import read_design
+from groundcalc.io.template import build_template
+from groundcalc.io.workbook import read_design
 
 from .conftest import ROOT, write_workbook
 
@@ -380,8 +380,8 @@ def test_fitted_model_needs_wenner_readings(tmp_path, capsys):
 
 def test_wenner_resistance_with_pin_depth_is_converted(tmp_path):
     # Resistance readings with pin depth go through the IEEE Std 81 formula (see test_soilfit).
-    from groundcalc.soilfit import wenner_apparent_resistivity
-    from groundcalc.workbook import read_wenner
+    from groundcalc.io.workbook import read_wenner
+    from groundcalc.soil.wenner import wenner_apparent_resistivity
 
     p = _wenner_book(tmp_path / "w.xlsx", [[1, 16.0, None, 0.1], [2, 8.3, None, 0.1], [4, 4.6, None, None]])
     w = read_wenner(p)
@@ -391,7 +391,7 @@ def test_wenner_resistance_with_pin_depth_is_converted(tmp_path):
 
 
 def test_wenner_spacing_in_feet(tmp_path):
-    from groundcalc.workbook import read_wenner
+    from groundcalc.io.workbook import read_wenner
 
     header = ["Spacing [ft]", "Resistance [ohm]", "Apparent resistivity [ohm*m]", "Pin depth [ft]"]
     p = _wenner_book(tmp_path / "w.xlsx", [[10, None, 100], [20, None, 120], [40, None, 150]], header=header)

@@ -13,9 +13,9 @@ from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Space
 
 from .. import __version__
 from ..cautions import DRAFT_MARK
-from ..compare import DesignSummary
+from ..studies.compare import DesignSummary
 from .maps import Marker, PlanFigure
-from .pdf import BODY, FAIL_COLOUR, H1, H2, PASS_COLOUR, SMALL, _NumberedCanvas, _table, cautions, references
+from .style import BODY, FAIL_COLOUR, H1, H2, PASS_COLOUR, SMALL, NumberedCanvas, cautions, references, table
 
 __all__ = ["summary_table", "write_comparison_report"]
 
@@ -58,7 +58,7 @@ def summary_table(summaries: Sequence[DesignSummary], ranks: Sequence[int | None
             ]
         )
         style.append(("TEXTCOLOR", (8, k), (8, k), PASS_COLOUR if s.passed else FAIL_COLOUR))
-    t = _table(rows, [52 * mm, 17 * mm, 18 * mm, 38 * mm, 38 * mm, 16 * mm, 22 * mm, 18 * mm, 30 * mm, 11 * mm])
+    t = table(rows, [52 * mm, 17 * mm, 18 * mm, 38 * mm, 38 * mm, 16 * mm, 22 * mm, 18 * mm, 30 * mm, 11 * mm])
     t.setStyle(TableStyle(style + [("FONT", (0, 1), (-1, -1), "Helvetica", 8)]))
     return t
 
@@ -119,7 +119,7 @@ def write_comparison_report(
         grid.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP")]))
         story.append(grid)
     story += cautions() + references()
-    doc.build(story, canvasmaker=_NumberedCanvas)
+    doc.build(story, canvasmaker=NumberedCanvas)
 
 
 def variants_section(
@@ -140,7 +140,7 @@ def variants_section(
                 "PASS" if s.passed else f"FAIL ({s.governing})",
             ]
         )
-    t = _table(rows, [26 * mm, 36 * mm, 16 * mm, 18 * mm, 26 * mm, 26 * mm, 22 * mm])
+    t = table(rows, [26 * mm, 36 * mm, 16 * mm, 18 * mm, 26 * mm, 26 * mm, 22 * mm])
     t.setStyle(TableStyle([("FONT", (0, 1), (-1, -1), "Helvetica", 8)]))
     text = (
         f"The base case and {len(names) - 1} variant(s) from the Variants sheet; the geometry was solved "

@@ -14,7 +14,7 @@ from reportlab.lib.units import mm
 from reportlab.platypus import Paragraph, Spacer
 
 from ..analysis import Results, plan_lines
-from ..surface import surface_potential
+from ..surface.potential import surface_potential
 from .charts import Series, line_chart
 from .maps import ColourBar, Marker, PlanFigure, colour_of, map_image
 

@@ -6,92 +6,35 @@ import datetime as _dt
 from pathlib import Path
 
 import numpy as np
-from reportlab.lib import colors
-from reportlab.lib.enums import TA_CENTER
 from reportlab.lib.pagesizes import A4
-from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
 from reportlab.lib.units import mm
-from reportlab.pdfgen import canvas as _canvas
-from reportlab.platypus import KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
+from reportlab.platypus import KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, TableStyle
 
 from .. import __version__
 from ..analysis import Results
-from ..cautions import CAUTIONS, DRAFT_MARK
-from ..outputs import CLOSED_FORM_NOTE, closed_form_rows
+from ..cautions import DRAFT_MARK
+from ..io.outputs import CLOSED_FORM_NOTE, closed_form_rows
 from .charts import Series, line_chart
+from .comparison import variants_section
 from .figures import leakage_figure, plan_figure, potential_figure, step_profile, touch_figure, touch_profile
+from .style import (
+    BODY,
+    FIT_COLOUR,
+    H1,
+    H2,
+    MEASURED_COLOUR,
+    SMALL,
+    UNIFORM_COLOUR,
+    VERDICT,
+    NumberedCanvas,
+    cautions,
+    fmt,
+    references,
+    table,
+    verdict,
+)
 
 __all__ = ["write_report"]
-
-_STYLES = getSampleStyleSheet()
-BODY = ParagraphStyle("body", parent=_STYLES["BodyText"], fontSize=9.5, leading=12)
-SMALL = ParagraphStyle("small", parent=BODY, fontSize=8, leading=10)
-H1 = ParagraphStyle("h1", parent=_STYLES["Heading1"], fontSize=16, spaceAfter=6)
-H2 = ParagraphStyle("h2", parent=_STYLES["Heading2"], fontSize=12, spaceBefore=10, spaceAfter=4)
-VERDICT = ParagraphStyle("verdict", parent=BODY, fontSize=13, leading=16, alignment=TA_CENTER)
-
-PASS_COLOUR = colors.HexColor("#1b7837")
-FAIL_COLOUR = colors.HexColor("#b2182b")
-GRID_LINE = colors.HexColor("#9aa5b1")
-HEAD_FILL = colors.HexColor("#e4e9ef")
-MEASURED_COLOUR = colors.HexColor("#b35806")
-FIT_COLOUR = colors.HexColor("#1f4e79")
-UNIFORM_COLOUR = colors.HexColor("#7f7f7f")
-
-
-class _NumberedCanvas(_canvas.Canvas):
-    """Canvas that prints the draft marking and 'page N of M' on every page."""
-
-    def __init__(self, *args, **kwargs):
-        super().__init__(*args, **kwargs)
-        self._saved: list[dict] = []
-
-    def showPage(self):  # noqa: N802 (reportlab API)
-        self._saved.append(dict(self.__dict__))
-        self._startPage()
-
-    def save(self):
-        total = len(self._saved)
-        for state in self._saved:
-            self.__dict__.update(state)
-            self._decorate(total)
-            super().showPage()
-        super().save()
-
-    def _decorate(self, total: int) -> None:
-        w, h = self._pagesize
-        self.saveState()
-        self.setFillColor(FAIL_COLOUR)
-        self.setFont("Helvetica-Bold", 8.5)
-        self.drawCentredString(w / 2, h - 12 * mm, DRAFT_MARK)
-        self.setFillColor(colors.black)
-        self.setFont("Helvetica", 8)
-        self.drawString(18 * mm, 10 * mm, f"groundcalc {__version__}")
-        self.drawRightString(w - 18 * mm, 10 * mm, f"Page {self._pageNumber} of {total}")
-        self.restoreState()
-
-
-def _table(rows, col_widths, header=True, align_right_from=1):
-    t = Table(rows, colWidths=col_widths, hAlign="LEFT")
-    style = [
-        ("FONT", (0, 0), (-1, -1), "Helvetica", 9),
-        ("GRID", (0, 0), (-1, -1), 0.4, GRID_LINE),
-        ("VALIGN", (0, 0), (-1, -1), "TOP"),
-        ("ALIGN", (align_right_from, 0), (-1, -1), "RIGHT"),
-    ]
-    if header:
-        style += [("FONT", (0, 0), (-1, 0), "Helvetica-Bold", 9), ("BACKGROUND", (0, 0), (-1, 0), HEAD_FILL)]
-    t.setStyle(TableStyle(style))
-    return t
-
-
-def _fmt(x: float, digits: int = 4) -> str:
-    return f"{x:.{digits}g}" if abs(x) < 10**digits else f"{x:,.0f}"
-
-
-def _verdict(ok: bool) -> str:
-    colour = PASS_COLOUR.hexval()[2:] if ok else FAIL_COLOUR.hexval()[2:]
-    return f'<font color="#{colour}"><b>{"PASS" if ok else "FAIL"}</b></font>'
 
 
 def title_block(results: Results, input_name: str, sha256: str) -> list:
@@ -109,7 +52,7 @@ def title_block(results: Results, input_name: str, sha256: str) -> list:
     ]
     return [
         Paragraph("Substation grounding study - draft results", H1),
-        _table(rows, [35 * mm, 135 * mm], header=False, align_right_from=2),
+        table(rows, [35 * mm, 135 * mm], header=False, align_right_from=2),
     ]
 
 
@@ -117,25 +60,25 @@ def summary(results: Results) -> list:
     """Pass/fail summary flowables."""
     a = results.assessment
     lim = results.limits
-    verdict = (
-        f"Overall: {_verdict(a.passed)} &nbsp; (governing criterion: {a.governing}, margin "
+    overall = (
+        f"Overall: {verdict(a.passed)} &nbsp; (governing criterion: {a.governing}, margin "
         f"{min(a.touch_margin_pct, a.step_margin_pct):+.1f} %)"
     )
     rows = [
         ["Criterion", "Computed", "Tolerable", "Margin [%]", "Result"],
         [
             "Touch voltage [V]",
-            _fmt(results.max_touch_v),
-            _fmt(lim.touch_v),
+            fmt(results.max_touch_v),
+            fmt(lim.touch_v),
             f"{a.touch_margin_pct:+.1f}",
-            Paragraph(_verdict(a.touch_ok), BODY),
+            Paragraph(verdict(a.touch_ok), BODY),
         ],
         [
             "Step voltage [V]",
-            _fmt(results.max_step_v),
-            _fmt(lim.step_v),
+            fmt(results.max_step_v),
+            fmt(lim.step_v),
             f"{a.step_margin_pct:+.1f}",
-            Paragraph(_verdict(a.step_ok), BODY),
+            Paragraph(verdict(a.step_ok), BODY),
         ],
     ]
     sz = results.sizing
@@ -147,7 +90,7 @@ def summary(results: Results) -> list:
                 f"{smallest:.1f}",
                 f"at least {sz.required_mm2:.1f}",
                 f"{100.0 * (smallest - sz.required_mm2) / smallest:+.1f}",
-                Paragraph(_verdict(sz.ok), BODY),
+                Paragraph(verdict(sz.ok), BODY),
             ]
         )
     basis = f"Tolerable voltages: {lim.basis}, Cs = {lim.cs:.4f}."
@@ -177,12 +120,12 @@ def summary(results: Results) -> list:
     )
     return [
         Paragraph("Summary", H2),
-        Paragraph(verdict, VERDICT),
+        Paragraph(overall, VERDICT),
         Spacer(1, 4),
-        _table(rows, [40 * mm, 30 * mm, 30 * mm, 25 * mm, 25 * mm]),
+        table(rows, [40 * mm, 30 * mm, 30 * mm, 25 * mm, 25 * mm]),
         Paragraph(basis, SMALL),
         Spacer(1, 6),
-        _table(key, [70 * mm, 80 * mm]),
+        table(key, [70 * mm, 80 * mm]),
         Spacer(1, 4),
         Paragraph(advice, BODY),
     ]
@@ -234,11 +177,11 @@ def inputs(results: Results) -> list:
     w = [70 * mm, 100 * mm]
     return [
         Paragraph("Inputs", H2),
-        _table([["Soil", ""]] + soil_rows, w, align_right_from=2),
+        table([["Soil", ""]] + soil_rows, w, align_right_from=2),
         Spacer(1, 4),
-        _table([["Fault", ""]] + fault_rows, w, align_right_from=2),
+        table([["Fault", ""]] + fault_rows, w, align_right_from=2),
         Spacer(1, 4),
-        _table([["Geometry and numerics", ""]] + geo_rows, w, align_right_from=2),
+        table([["Geometry and numerics", ""]] + geo_rows, w, align_right_from=2),
     ]
 
 
@@ -277,7 +220,7 @@ def soil_fit_section(results: Results) -> list:
         Spacer(1, 4),
         chart,
         Spacer(1, 4),
-        _table(rows, [35 * mm, 40 * mm, 40 * mm, 35 * mm]),
+        table(rows, [35 * mm, 40 * mm, 40 * mm, 35 * mm]),
     ]
 
 
@@ -293,7 +236,7 @@ def closed_form_section(results: Results) -> list:
         spec = ".4g" if unit == "ohm" else ",.1f"
         rows.append(["" if q == last else q, f"{num:{spec}} {unit}", f"{closed:{spec}} {unit}", eq, f"{diff:+.1f} %"])
         last = q
-    t = _table(rows, [40 * mm, 27 * mm, 27 * mm, 50 * mm, 24 * mm])
+    t = table(rows, [40 * mm, 27 * mm, 27 * mm, 50 * mm, 24 * mm])
     t.setStyle(TableStyle([("ALIGN", (3, 0), (3, -1), "LEFT")]))
     q = cf.layout
     factors = (
@@ -325,7 +268,7 @@ def sizing_section(results: Results) -> list:
             m[4].append(i.label)
     rows = [["Material", "Items", "Tm [degC]", "Needed [mm2]", "Smallest [mm2]", "Result"]]
     for name, (req, tm, small, count, bad) in mats.items():
-        rows.append([name, str(count), f"{tm:g}", f"{req:.1f}", f"{small:.1f}", Paragraph(_verdict(not bad), BODY)])
+        rows.append([name, str(count), f"{tm:g}", f"{req:.1f}", f"{small:.1f}", Paragraph(verdict(not bad), BODY)])
     text = (
         f"Each conductor and rod is checked for the asymmetrical fault current Df x 3I0 = {sz.current_a:,.0f} A "
         f"for the fault duration {sz.duration_s:g} s, from an ambient {sz.ambient_c:g} degC (IEEE Std 80-2000 "
@@ -333,7 +276,7 @@ def sizing_section(results: Results) -> list:
         "the entered diameter."
     )
     items = [Paragraph("Conductor sizing", H2), Paragraph(text, BODY), Spacer(1, 3)]
-    items.append(_table(rows, [55 * mm, 15 * mm, 22 * mm, 27 * mm, 27 * mm, 20 * mm]))
+    items.append(table(rows, [55 * mm, 15 * mm, 22 * mm, 27 * mm, 27 * mm, 20 * mm]))
     for name, (_, _, _, _, bad) in mats.items():
         if bad:
             items.append(
@@ -352,21 +295,6 @@ def notices(results: Results) -> list:
     for n in results.notices:
         items.append(Paragraph(f"<b>{n.level.capitalize()}:</b> {n.message}", BODY))
     return items
-
-
-#: Documents the report relies on, by number and edition.
-REFERENCES = (
-    "IEEE Std 80-2013, IEEE Guide for Safety in AC Substation Grounding (equation numbers in this report "
-    "follow IEEE Std 80-2000; the 2013 edition numbers clauses 14 to 16 five higher).",
-    "IEEE Std 81-2012, IEEE Guide for Measuring Earth Resistivity, Ground Impedance, and Earth Surface "
-    "Potentials of a Grounding System (Wenner method, two-layer apparent resistivity).",
-    "H. B. Dwight, Calculation of resistances to ground, AIEE Transactions 55, 1936.",
-    "S. J. Schwarz, Analytical expressions for the resistance of grounding systems, AIEE Transactions 73, 1954.",
-    "E. D. Sunde, Earth Conduction Effects in Transmission Systems, Van Nostrand 1949 (Dover 1968).",
-    "G. F. Tagg, Earth Resistances, Newnes 1964 (image series in layered soil).",
-    "R. F. Harrington, Field Computation by Moment Methods, Macmillan 1968 (method of moments).",
-    "CIE 15:2004 Colorimetry (CIELAB lightness of the colour scale).",
-)
 
 
 def figures_section(results: Results) -> list:
@@ -406,19 +334,6 @@ def assumptions(results: Results) -> list:
     return [KeepTogether([Paragraph("Assumptions and limitations", H2)] + [Paragraph(f"- {t}", BODY) for t in items])]
 
 
-def references() -> list:
-    """References flowables."""
-    return [Paragraph("References", H2)] + [Paragraph(f"[{k}] {t}", SMALL) for k, t in enumerate(REFERENCES, start=1)]
-
-
-def cautions() -> list:
-    """Cautions flowables."""
-    items = [Paragraph("Cautions", H2)]
-    for head, text in CAUTIONS:
-        items.append(Paragraph(f"<b>{head}.</b> {text}", BODY))
-    return [KeepTogether(items)]
-
-
 def write_report(results: Results, path: str | Path, input_name: str, sha256: str, variants=None) -> None:
     """Write the PDF report.
 
@@ -451,8 +366,6 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story += title_block(results, input_name, sha256)
     story += summary(results)
     if variants is not None:
-        from .comparison import variants_section
-
         story += variants_section(*variants)
     story += [PageBreak()]
     story += inputs(results)
@@ -465,4 +378,4 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story += assumptions(results)
     story += cautions()
     story += references()
-    doc.build(story, canvasmaker=_NumberedCanvas)
+    doc.build(story, canvasmaker=NumberedCanvas)

@@ -9,21 +9,38 @@ import json
 from pathlib import Path
 
 from groundcalc.analysis import analyse
-from groundcalc.outputs import results_to_dict
-from groundcalc.workbook import read_design
+from groundcalc.io.outputs import results_to_dict
+from groundcalc.io.workbook import read_design
 
 ROOT = Path(__file__).resolve().parents[2]
 KEYS = [
-    "grid_resistance_ohm", "decrement_factor", "grid_current_a", "gpr_v", "max_touch_v", "max_step_v",
-    "surface_layer_factor_cs", "tolerable_touch_v", "tolerable_step_v", "touch_ok", "step_ok", "passed",
-    "governing", "touch_location", "step_location", "segment_count", "conductor_count",
-    "total_conductor_length_m", "rod_count", "total_rod_length_m",
+    "grid_resistance_ohm",
+    "decrement_factor",
+    "grid_current_a",
+    "gpr_v",
+    "max_touch_v",
+    "max_step_v",
+    "surface_layer_factor_cs",
+    "tolerable_touch_v",
+    "tolerable_step_v",
+    "touch_ok",
+    "step_ok",
+    "passed",
+    "governing",
+    "touch_location",
+    "step_location",
+    "segment_count",
+    "conductor_count",
+    "total_conductor_length_m",
+    "rod_count",
+    "total_rod_length_m",
 ]
 
 if __name__ == "__main__":
     path = ROOT / "examples" / "kestrel-brook.xlsx"
     d = results_to_dict(analyse(read_design(path)), path)
     pin = {k: d[k] for k in KEYS}
-    pin["settings"] = {k: d["settings"][k] for k in ("segment_length_m", "raster_spacing_m", "raster_points", "margin_m")}
+    settings = ("segment_length_m", "raster_spacing_m", "raster_points", "margin_m")
+    pin["settings"] = {k: d["settings"][k] for k in settings}
     pin["closed_form"] = d["closed_form"]
     (ROOT / "tests" / "data" / "kestrel-brook-pinned.json").write_text(json.dumps(pin, indent=2) + "\n")

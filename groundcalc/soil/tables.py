@@ -126,7 +126,7 @@ class RadialSums:
     vertical offset, so ``S_p(d) = sum_k w_k (d^2 + dz_k^2)^(-p/2)`` for
     p = 1, 3, 5 are functions of the horizontal distance ``d`` alone. They
     give the corrected mid-point rule for a segment pair (see
-    :func:`groundcalc.assembly.far_horizontal`).
+    :func:`groundcalc.mom.assembly.far_horizontal`).
 
     Parameters
     ----------

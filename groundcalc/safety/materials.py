@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .units import normalise_name
+from ..io.units import normalise_name
 
 __all__ = [
     "DEFAULT_MATERIAL",

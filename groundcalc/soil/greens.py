@@ -10,7 +10,7 @@ down) is written as
   (ohm*m), sign ``s_k`` (+1 shifted copy, -1 mirrored copy) and shift
   ``t_k`` (m). Every image is moved in depth only, so the image of a straight
   segment is again a straight segment and the segment integrals of
-  :mod:`groundcalc.kernels` apply term by term.
+  :mod:`groundcalc.mom.integrals` apply term by term.
 * **Tails**: what is left of an infinite image series after its explicit
   terms. ``T(d, v) = sum_{m>=0} K^m / sqrt(d^2 + (v + 2 m H)^2)`` with ``d``
   the horizontal distance and ``v = a z + b z' + c`` a linear function of the
@@ -19,7 +19,7 @@ down) is written as
   low-order rule integrates them accurately.
 
 This module holds the data types and the uniform-soil images; the two-layer
-series are built in :mod:`groundcalc.twolayer`.
+series are built in :mod:`groundcalc.soil.twolayer`.
 """
 
 from __future__ import annotations
@@ -29,7 +29,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .model import Soil
+from ..model import Soil
 
 __all__ = ["Greens", "Image", "PairKernel", "Tail", "uniform_greens"]
 
@@ -136,7 +136,7 @@ class Greens:
     radial_far : dict or None
         ``(lo, ls, z_o, z_s) -> RadialSums``: sums over the non-leading
         images for horizontal segments at fixed depths (keys from
-        :func:`groundcalc.twolayer.depth_key`), used for distant pairs;
+        :func:`groundcalc.soil.twolayer.depth_key`), used for distant pairs;
         ``None`` for uniform soil.
     radial_surface : dict or None
         ``(ls, z_s) -> RadialSums``: the same for surface observers.

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.optimize
 
-from .model import Soil, WennerReadings
+from ..model import Soil, WennerReadings
 
 __all__ = [
     "SoilFit",

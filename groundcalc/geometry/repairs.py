@@ -18,8 +18,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from .errors import InputError
-from .model import Conductor, Design, Notice, Rod
+from ..errors import InputError
+from ..model import Conductor, Design, Notice, Rod
 
 __all__ = ["MAX_COORDINATE_M", "MAX_DEPTH_M", "clean_design"]
 

@@ -18,10 +18,9 @@ from typing import Any
 import openpyxl
 from openpyxl.utils import get_column_letter
 
-from .errors import InputError
-from .geometry import clean_design
-from .materials import DEFAULT_MATERIAL, MATERIALS, material
-from .model import (
+from ..errors import InputError
+from ..geometry.repairs import clean_design
+from ..model import (
     Conductor,
     Design,
     Fault,
@@ -35,8 +34,9 @@ from .model import (
     Variant,
     WennerReadings,
 )
+from ..safety.materials import DEFAULT_MATERIAL, MATERIALS, material
+from ..soil.wenner import wenner_apparent_resistivity
 from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, VARIANTS, WENNER, Field, SheetSpec
-from .soilfit import wenner_apparent_resistivity
 from .units import UNITS, normalise_name, split_header, to_si
 
 __all__ = ["MAX_TABLE_ROWS", "open_workbook", "read_design", "read_keyvalue", "read_table", "read_wenner"]

@@ -19,10 +19,10 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
+from ..geometry.segments import Segments
+from ..model import Notice
+from ..soil.greens import Greens
 from .assembly import assemble
-from .greens import Greens
-from .model import Notice
-from .segments import Segments
 
 __all__ = ["Solution", "assemble", "solve"]
 

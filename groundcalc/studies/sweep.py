@@ -11,8 +11,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from .errors import InputError
-from .model import Design, GridSpec, Rod
+from ..errors import InputError
+from ..model import Design, GridSpec, Rod
 
 __all__ = ["SweepLayout", "parse_counts", "parse_range", "perimeter_rods", "sweep_layouts"]
 

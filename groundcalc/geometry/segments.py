@@ -14,7 +14,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .model import Conductor, Notice
+from ..model import Conductor, Notice
 
 __all__ = ["MIN_RADII", "Segmentation", "Segments", "move_off_interface", "segment_conductors"]
 

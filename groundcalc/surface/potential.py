@@ -19,12 +19,12 @@ import numpy as np
 import scipy.ndimage
 import scipy.optimize
 
-from .assembly import horizontal_mask
-from .footprint import Footprint
-from .kernels import FAR_MARGIN, FAR_RATIO, gauss_legendre_unit, line_integral
-from .segments import Segments
-from .solver import Solution
-from .twolayer import depth_key
+from ..geometry.footprint import Footprint
+from ..geometry.segments import Segments
+from ..mom.assembly import horizontal_mask
+from ..mom.integrals import FAR_MARGIN, FAR_RATIO, gauss_legendre_unit, line_integral
+from ..mom.solver import Solution
+from ..soil.twolayer import depth_key
 
 __all__ = [
     "Raster",
@@ -319,7 +319,7 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     Notes
     -----
     Segments that are shifted copies of one another (a class of
-    :func:`groundcalc.assembly.segment_classes`) and whose mid points sit at
+    :func:`groundcalc.mom.assembly.segment_classes`) and whose mid points sit at
     the same fractional position within the raster cells contribute a
     discrete convolution of their currents with one kernel table: the
     potential of one such segment at every raster offset, evaluated once by
@@ -327,7 +327,7 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     (``scipy.fft``); other segments are summed directly. Both
     give the same values to round-off (tests/test_surface.py).
     """
-    from .assembly import segment_classes
+    from ..mom.assembly import segment_classes
 
     seg = solution.segments
     nx, ny = x.size, y.size

@@ -16,10 +16,10 @@ from collections.abc import Callable, Iterable
 from pathlib import Path
 from typing import Any
 
-from . import __version__
-from .analysis import Results
-from .cautions import CAUTIONS, DRAFT_MARK
-from .errors import InputError
+from .. import __version__
+from ..analysis import Results
+from ..cautions import CAUTIONS, DRAFT_MARK
+from ..errors import InputError
 
 __all__ = [
     "atomic_write",
@@ -305,7 +305,7 @@ def sizing_to_dict(sizing) -> dict[str, Any] | None:
 
 
 def soil_fit_to_dict(fit) -> dict[str, Any]:
-    """A :class:`~groundcalc.soilfit.SoilFit` as a JSON-ready dictionary."""
+    """A :class:`~groundcalc.soil.wenner.SoilFit` as a JSON-ready dictionary."""
     return {
         "two_layer": {
             "upper_resistivity_ohm_m": fit.rho1_ohm_m,

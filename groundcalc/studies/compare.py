@@ -18,10 +18,10 @@ from typing import Any
 
 import numpy as np
 
-from .analysis import Results, analyse, plan_lines
-from .errors import InputError
-from .materials import MATERIALS
-from .model import Design
+from ..analysis import Results, analyse, plan_lines
+from ..errors import InputError
+from ..model import Design
+from ..safety.materials import MATERIALS
 
 __all__ = ["DesignSummary", "buried_mass_kg", "rank", "run_parallel", "summarise", "summarise_file"]
 
@@ -99,7 +99,7 @@ def buried_mass_kg(design: Design) -> float:
     Notes
     -----
     Solid round sections (common practice for a first material estimate);
-    densities of :data:`groundcalc.materials.MATERIALS`.
+    densities of :data:`groundcalc.safety.materials.MATERIALS`.
     """
     total = 0.0
     for c in design.all_conductors():
@@ -144,7 +144,7 @@ def summarise(results: Results, name: str, source: str = "") -> DesignSummary:
 
 def summarise_file(path: str) -> DesignSummary:
     """Read and analyse one workbook; an unreadable one gives a summary with its error."""
-    from .workbook import read_design
+    from ..io.workbook import read_design
 
     name = Path(path).stem
     try:

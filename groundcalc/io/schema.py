@@ -22,7 +22,7 @@ class Field:
     name : str
         Name without unit, as written in the template.
     kind : str
-        Unit kind (see :data:`groundcalc.units.UNITS`), or ``"number"``,
+        Unit kind (see :data:`groundcalc.io.units.UNITS`), or ``"number"``,
         ``"count"``, ``"text"``, ``"choice"``.
     required : bool
         Whether a value must be given.

@@ -14,7 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .footprint import Footprint
+from ..geometry.footprint import Footprint
+from ..model import Design
 from .ieee80 import (
     effective_parallel_count,
     irregularity_factor,
@@ -30,7 +31,6 @@ from .ieee80 import (
     sverak_resistance,
 )
 from .materials import MATERIALS, decrement_current_a, required_area_mm2
-from .model import Design
 
 __all__ = [
     "ClosedForm",
@@ -223,7 +223,7 @@ def closed_form_check(design: Design, footprint: Footprint, grid_current_a: floa
 
     References
     ----------
-    IEEE Std 80-2000, clauses 14.2, 14.3 and 16.5 (see :mod:`groundcalc.ieee80`).
+    IEEE Std 80-2000, clauses 14.2, 14.3 and 16.5 (see :mod:`groundcalc.safety.ieee80`).
     """
     q = layout_quantities(design, footprint)
     if q is None or not math.isfinite(q.spacing_m):

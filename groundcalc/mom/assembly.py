@@ -6,7 +6,7 @@ spread evenly over segment j:
     Z_ij = 1 / (4 pi L_i L_j) * [ sum_k w_k int_i int_j' g dl dl'
                                   + L_i L_j sum_f w_f <T(d, v_f)>_ij ]
 
-where j' runs over the explicit images of segment j (:mod:`groundcalc.greens`)
+where j' runs over the explicit images of segment j (:mod:`groundcalc.soil.greens`)
 and the tails ``T`` are averaged with a 2 x 2 Gauss rule (they are smooth: the
 images behind them are at least the near distance away).
 
@@ -16,9 +16,9 @@ written with radial sums ``S_p = sum_k w_k / R_k^p``,
 
     Z_ij = 1/(4 pi) [S1 + L_i^2/24 (3 (D.e_i)^2 S5 - S3) + L_j^2/24 (3 (D.e_j)^2 S5 - S3)],
 
-which is :func:`groundcalc.kernels.far_pair_integral` summed over all images
+which is :func:`groundcalc.mom.integrals.far_pair_integral` summed over all images
 at once. The leading images are summed directly and the rest of a two-layer
-series comes from :class:`groundcalc.tables.RadialSums`.
+series comes from :class:`groundcalc.soil.tables.RadialSums`.
 """
 
 from __future__ import annotations
@@ -28,11 +28,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .greens import Greens, uniform_greens
-from .kernels import FAR_MARGIN, FAR_RATIO, pair_integral
-from .model import Soil
-from .segments import Segments
-from .twolayer import DepthRanges, depth_key, two_layer_greens
+from ..geometry.segments import Segments
+from ..model import Soil
+from ..soil.greens import Greens, uniform_greens
+from ..soil.twolayer import DepthRanges, depth_key, two_layer_greens
+from .integrals import FAR_MARGIN, FAR_RATIO, pair_integral
 
 __all__ = [
     "FAR_RATIO",

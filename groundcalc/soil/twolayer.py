@@ -16,8 +16,8 @@ Each series is split into *families* of images whose depth moves by 2H per
 term. The images of a family that come within the near distance of some
 observer are kept as explicit images (integrated exactly over segments); the
 rest form a tail ``w T(d, v)`` that is smooth where it is used (see
-:mod:`groundcalc.greens`) and is summed to a tolerance with a rigorous bound
-(:mod:`groundcalc.tables`).
+:mod:`groundcalc.soil.greens`) and is summed to a tolerance with a rigorous bound
+(:mod:`groundcalc.soil.tables`).
 
 References
 ----------
@@ -37,8 +37,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..model import Soil
 from .greens import Greens, Image, PairKernel, Tail
-from .model import Soil
 from .tables import RadialSums, TailTable, series_sums
 
 __all__ = [

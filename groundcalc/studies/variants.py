@@ -10,10 +10,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
-from .analysis import FieldResult, GeometryResult, Results, evaluate, resolve_soil, solve_geometry, surface_field
-from .errors import InputError
-from .model import Design, Soil, SurfaceLayer, Variant
-from .schema import VARIANTS
+from ..analysis import FieldResult, GeometryResult, Results, evaluate, resolve_soil, solve_geometry, surface_field
+from ..errors import InputError
+from ..io.schema import VARIANTS
+from ..model import Design, Soil, SurfaceLayer, Variant
 
 __all__ = ["VariantRun", "apply_variant", "run_variants"]
 

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from ..model import Fault, Soil, SurfaceLayer
 from .ieee80 import surface_layer_factor, tolerable_step_v, tolerable_touch_v
-from .model import Fault, Soil, SurfaceLayer
 
 __all__ = ["Assessment", "Limits", "assess", "tolerable_limits"]
 

@@ -1,0 +1,1 @@
+"""Plan and depth geometry of the metal: repairs on reading, footprint, thin-wire segments."""

@@ -1,0 +1,1 @@
+"""Edges of the pipeline: workbook format, reader and template, units, JSON and file output."""

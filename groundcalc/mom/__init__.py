@@ -1,0 +1,1 @@
+"""Method of moments: segment-pair integrals, matrix assembly and the linear solve."""

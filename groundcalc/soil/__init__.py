@@ -1,0 +1,1 @@
+"""Soil models: Green's functions (uniform, two-layer image series and their tables) and the Wenner fit."""

@@ -1,0 +1,1 @@
+"""Earth-surface potential from the solved leakage currents, and the touch and step search."""
