@@ -186,7 +186,8 @@ def _dxf_output(args, inputs, others) -> tuple[Path | None, list[float] | None]:
 
 
 def _cmd_import(args: argparse.Namespace) -> int:
-    from .io.dxf_import import complete_rules, import_drawing, read_layer_rules, write_import_workbook
+    from .io.dxf_import import complete_rules, import_drawing
+    from .io.dxf_workbook import read_layer_rules, write_import_workbook
     from .io.outputs import check_output, file_sha256
 
     inputs = [args.drawing] + ([args.layers] if args.layers else [])

@@ -959,7 +959,7 @@ def read_design(path: str | Path) -> Design:
     try:
         notices: list[Notice] = []
         check_formulas(path, wb, notices)
-        from .dxf_import import check_import_complete
+        from .dxf_workbook import check_import_complete
 
         check_import_complete(wb)
         project = _read_project(wb)
