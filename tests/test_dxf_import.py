@@ -166,8 +166,10 @@ def test_running_twice_gives_the_same_bytes(imported, tmp_path):
     d, dxf = imported
     assert main(import_args(dxf, tmp_path / "again.xlsx")) == 0
     assert (tmp_path / "again.xlsx").read_bytes() == (d / "site.xlsx").read_bytes()
+    before = sha(d / "site.xlsx")
     code = main(["import", str(dxf), str(tmp_path / "mapped.xlsx"), "--layers", str(d / "site.xlsx"), "--quiet"])
     assert code == 0
+    assert sha(d / "site.xlsx") == before
     assert (tmp_path / "mapped.xlsx").read_bytes() == (d / "site.xlsx").read_bytes()
 
 
