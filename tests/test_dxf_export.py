@@ -174,3 +174,21 @@ def test_cli_run_writes_dxf(tmp_path, capsys):
         err = capsys.readouterr().err
         assert msg in err, err
     assert not (tmp_path / "x.dxf").exists()
+
+
+def test_results_drawing_imports_back(results, tmp_path):
+    # The conductor and rod layers of the results drawing are a drawing like any other:
+    # importing them gives back the analysed plan geometry.
+    from groundcalc.io.dxf_import import complete_rules, import_drawing
+
+    path = tmp_path / "back.dxf"
+    write_results_dxf(results, path, units="mm")
+    rules = complete_rules([], [LAYERS["conductors"][0]], [LAYERS["rods"][0]], 0.5, 0.01, 3.0, 0.016, None)
+    imp = import_drawing(path, rules)
+    assert imp.unit_name == "mm" and LAYERS["contours"][0] in imp.unmapped
+
+    def plan(cs):
+        return sorted(tuple(round(v, 6) for v in (*c.start[:2], *c.end[:2])) for c in cs)
+
+    assert plan(imp.conductors) == plan(c for c in results.design.all_conductors() if c.kind != "rod")
+    assert sorted((r.x_m, r.y_m) for r in imp.rods) == sorted((r.x_m, r.y_m) for r in results.design.rods)

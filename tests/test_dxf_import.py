@@ -305,9 +305,23 @@ def test_missing_dimensions_and_conflicts_exit_2(tmp_path, capsys):
     assert "--rod-length" in capsys.readouterr().err
     assert main(base + ["--depth", "0.5", "--diameter", "10", "--rods", "EARTH GRID"]) == 2
     assert "both --conductors and --rods" in capsys.readouterr().err
+    assert main(base + ["--depth", "-0.5", "--diameter", "10"]) == 2
+    assert "must be greater than zero, got -0.5 m" in capsys.readouterr().err
+    assert main(base + ["--depth", "0.5", "--diameter", "-10"]) == 2
+    assert "diameter -0.01 m for layer 'EARTH GRID' (--conductors) is out of range" in capsys.readouterr().err
     assert main(base + ["--depth", "0.5", "--diameter", "10", "--units", "furlong"]) == 2
     assert "not a drawing unit" in capsys.readouterr().err
     assert main(["import", str(dxf), str(dxf), "--conductors", "EARTH GRID", "--quiet"]) == 2
     assert "is the input file" in capsys.readouterr().err
     assert main(base + ["--depth", "0.5", "--diameter", "10", "--layers", str(tmp_path / "none.xlsx")]) == 2
     assert "does not exist" in capsys.readouterr().err
+
+
+def test_bad_drawing_sheet_is_located(imported, tmp_path, capsys):
+    d, dxf = imported
+    wb = openpyxl.load_workbook(d / "site.xlsx")
+    wb["Drawing"]["B2"] = "wire"
+    wb.save(tmp_path / "bad-map.xlsx")
+    assert main(["import", str(dxf), str(tmp_path / "o.xlsx"), "--layers", str(tmp_path / "bad-map.xlsx")]) == 2
+    err = capsys.readouterr().err
+    assert "sheet 'Drawing', row 2" in err and "'wire' is not a valid part" in err and "conductor, rod, ignore" in err

@@ -578,8 +578,9 @@ def complete_rules(
         dia = diameter_m if diameter_m is not None else (old.diameter_m if old else None)
         where = r.origin or "conductor layer"
         if d is None or d <= 0:
+            state = "is not given" if d is None else f"must be greater than zero, got {d:g} m"
             raise InputError(
-                f"the burial depth of the conductors on layer '{r.layer}' ({where}) is not given",
+                f"the burial depth of the conductors on layer '{r.layer}' ({where}) {state}",
                 fix="Give it with --depth M (typical 0.3 to 1.5 m) or in the Depth column of the Drawing sheet",
             )
         if dia is None:
