@@ -1,4 +1,4 @@
-"""Command line: ``groundcalc template``, ``run``, ``soil``, ``compare`` and ``sweep``.
+"""Command line: ``groundcalc template``, ``run``, ``import``, ``soil``, ``compare`` and ``sweep``.
 
 Exit codes: 0 finished (the design may still fail the safety criteria; the
 output says so), 2 bad input or arguments, 1 internal error.
@@ -119,6 +119,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
     inputs = [args.workbook]
     report, json_out = _output_paths(args, inputs)
+    dxf_out, levels = _dxf_output(args, inputs, [report, json_out])
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
@@ -157,7 +158,68 @@ def _cmd_run(args: argparse.Namespace) -> int:
         log.info("writing report %s", report)
         atomic_write(report, lambda tmp: write_report(results, tmp, Path(args.workbook).name, sha_before or "", extra))
         log.info("wrote %s", report)
+    if dxf_out:
+        from .io.dxf_export import write_results_dxf
+
+        counts = write_results_dxf(results, dxf_out, levels, args.dxf_units)
+        print(f"\nwrote {dxf_out}: " + ", ".join(f"{layer} {n}" for layer, n in counts.items()))
     _print_cautions()
+    return 0
+
+
+def _dxf_output(args, inputs, others) -> tuple[Path | None, list[float] | None]:
+    """Checked ``--dxf`` path and ``--contours`` levels (refused before any work if unusable)."""
+    from .io.dxf_export import parse_levels
+    from .io.outputs import check_output
+
+    levels = parse_levels(args.contours) if args.contours else None
+    if not args.dxf:
+        if levels:
+            raise InputError("--contours needs --dxf", fix="Add --dxf RESULTS.dxf to write the contours")
+        return None, None
+    out = check_output(args.dxf, inputs, args.overwrite, "DXF")
+    if out.suffix.lower() != ".dxf":
+        raise InputError(f"the DXF output '{out.name}' must end in .dxf", fix="For example results.dxf")
+    if any(o is not None and o.resolve() == out.resolve() for o in others):
+        raise InputError("the DXF output is the same file as another output", fix="Give each output its own name")
+    return out, levels
+
+
+def _cmd_import(args: argparse.Namespace) -> int:
+    from .io.dxf_import import complete_rules, import_drawing
+    from .io.dxf_workbook import read_layer_rules, write_import_workbook
+    from .io.outputs import check_output, file_sha256
+
+    inputs = [args.drawing] + ([args.layers] if args.layers else [])
+    out = check_output(args.workbook, inputs, args.overwrite, "workbook")
+    if out.suffix.lower() != ".xlsx":
+        raise InputError(f"the workbook name '{out.name}' must end in .xlsx", fix="For example design.xlsx")
+    sheet_rules = read_layer_rules(args.layers) if args.layers else []
+
+    def names(values) -> list[str]:
+        return [n.strip() for v in values or [] for n in v.split(",") if n.strip()]
+
+    mm = 1e-3
+    rules = complete_rules(
+        sheet_rules,
+        names(args.conductors),
+        names(args.rods),
+        args.depth,
+        args.diameter * mm if args.diameter is not None else None,
+        args.rod_length,
+        args.rod_diameter * mm if args.rod_diameter is not None else None,
+        args.rod_top_depth,
+    )
+    sha = file_sha256(args.drawing) if Path(args.drawing).is_file() else None
+    imp = import_drawing(args.drawing, rules, args.units)
+    print("\n".join(imp.summary_lines()))
+    for n in imp.notices:
+        log.warning("%s: %s", n.level, n.message)
+    write_import_workbook(imp, out)
+    if sha is not None and file_sha256(args.drawing) != sha:  # pragma: no cover - defensive
+        raise InputError(f"the drawing '{args.drawing}' changed while it was read", fix="Run the import again")
+    print(f"\nwrote design workbook {out}")
+    print("fill in the Soil and Fault sheets (marked in yellow), then run: groundcalc run " + str(out))
     return 0
 
 
@@ -381,7 +443,28 @@ def _parser() -> argparse.ArgumentParser:
     r = sub.add_parser("run", help="analyse a design workbook")
     r.add_argument("workbook", help="design workbook (.xlsx)")
     _add_common(r, "write the draft report to this PDF", "write machine-readable results to this file")
+    r.add_argument("--dxf", metavar="DXF", help="write conductors, rods and touch-voltage contours to this drawing")
+    r.add_argument(
+        "--contours", metavar="V,V,...", help="touch-voltage contour levels [V] (default: 25 %% to 200 %% of the limit)"
+    )
+    r.add_argument("--dxf-units", default="m", choices=("m", "mm", "cm", "ft", "in"), help="unit of the DXF (m)")
     r.set_defaults(func=_cmd_run)
+
+    i = sub.add_parser("import", help="write a design workbook from the grid in a DXF drawing")
+    i.add_argument("drawing", help="ASCII DXF drawing (.dxf)")
+    i.add_argument("workbook", help="new design workbook to write (.xlsx)")
+    i.add_argument("--conductors", action="append", metavar="LAYER", help="layer(s) holding the buried conductors")
+    i.add_argument("--rods", action="append", metavar="LAYER", help="layer(s) holding the rods")
+    i.add_argument("--layers", metavar="XLSX", help="take the layer mapping from the Drawing sheet of this workbook")
+    i.add_argument("--depth", type=float, metavar="M", help="burial depth of the conductors [m]")
+    i.add_argument("--diameter", type=float, metavar="MM", help="conductor diameter [mm]")
+    i.add_argument("--rod-length", type=float, metavar="M", help="rod length [m]")
+    i.add_argument("--rod-diameter", type=float, metavar="MM", help="rod diameter [mm]")
+    i.add_argument("--rod-top-depth", type=float, metavar="M", help="depth of the rod tops [m] (the conductor depth)")
+    i.add_argument("--units", metavar="UNIT", help="drawing unit (mm, cm, m, in, ft, ...), overriding $INSUNITS")
+    i.add_argument("--overwrite", action="store_true", help="replace the workbook if it exists")
+    i.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    i.set_defaults(func=_cmd_import)
 
     s = sub.add_parser("soil", help="fit uniform and two-layer soil models to Wenner readings")
     s.add_argument("workbook", help="workbook with a 'Wenner' sheet (.xlsx)")

@@ -959,6 +959,9 @@ def read_design(path: str | Path) -> Design:
     try:
         notices: list[Notice] = []
         check_formulas(path, wb, notices)
+        from .dxf_workbook import check_import_complete
+
+        check_import_complete(wb)
         project = _read_project(wb)
         soil, surface = _read_soil(wb, notices)
         fault = _read_fault(wb, notices)
