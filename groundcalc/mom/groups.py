@@ -87,7 +87,8 @@ def _solve_many(z: np.ndarray, rhs: np.ndarray) -> tuple[np.ndarray, str]:
         else:
             return np.column_stack(cols), "conjugate gradients, Jacobi preconditioner (residual 1e-10), per group"
     factor = scipy.linalg.cho_factor(z, lower=False, check_finite=False)
-    return scipy.linalg.cho_solve(factor, rhs, check_finite=False), "Cholesky with the Schur complement on the group potentials"
+    method = "Cholesky with the Schur complement on the group potentials"
+    return scipy.linalg.cho_solve(factor, rhs, check_finite=False), method
 
 
 def solve_groups(
