@@ -28,7 +28,7 @@ from ..model import Conductor, Notice, Rod
 from .schema import CHECK_AREAS, CHECK_POINTS, CONDUCTORS, FENCES, METAL, PROFILES, RODS, SETTINGS, SheetSpec
 from .workbook import read_keyvalue, read_table, value
 
-__all__ = ["MAX_FENCE_REACH_M", "read_metal"]
+__all__ = ["MAX_FENCE_REACH_M", "metal_to_dict", "read_metal"]
 
 #: Largest accepted fence reach (a person's reach is about 1 m; common practice). [m]
 MAX_FENCE_REACH_M = 3.0
@@ -377,3 +377,108 @@ def read_metal(
     if layout.empty:
         return conductors, rods, None
     return conductors, rods, layout
+
+
+def _pt(p) -> dict[str, float]:
+    return {"x_m": round(float(p[0]), 3), "y_m": round(float(p[1]), 3)}
+
+
+def metal_to_dict(results) -> dict[str, Any]:
+    """JSON part for metal groups, fences, check points, check areas and profiles (SI units)."""
+    m = results.metal
+    gpr = results.gpr_v
+    out: dict[str, Any] = {"fence_reach_m": m.layout.fence_reach_m}
+    groups = []
+    if m.groups is not None:
+        kinds = {g.name: g.kind for g in m.layout.groups}
+        for name, bonded, pu, cur in zip(
+            m.groups.names, m.groups.bonded, m.groups.potential_pu, m.groups.net_current_a, strict=True
+        ):
+            groups.append(
+                {
+                    "group": name,
+                    "kind": kinds.get(name, "grid"),
+                    "bonded": bool(bonded),
+                    "potential_v": float(pu * gpr),
+                    "potential_pct_gpr": float(100.0 * pu),
+                    "current_a": float(cur * gpr),
+                }
+            )
+    out["groups"] = groups
+    checks = {(c.criterion, c.kind, c.name): c for c in m.checks}
+    fences = []
+    labels = list(dict.fromkeys(r.label for r in m.layout.fences))
+    for label in labels:
+        t = checks[("touch", "fence", label)]
+        s = checks[("step", "fence reach", label)]
+        gates = [c for c in m.checks if c.kind == "gate" and c.name.startswith(f"{label} (")]
+        runs = [r for r in m.layout.fences if r.label == label]
+        fences.append(
+            {
+                "label": label,
+                "bonded": runs[0].bonded,
+                "runs": len(runs),
+                "potential_v": m.group_potential_v(label),
+                "potential_pct_gpr": 100.0 * m.potential_pu(label),
+                "max_touch_v": t.value_v,
+                "touch_location": _pt(t.location),
+                "touch_limit_v": t.limit_v,
+                "max_step_v": s.value_v,
+                "step_location": {"start": _pt(s.location[0]), "end": _pt(s.location[1])},
+                "gates": [
+                    {"gate": g.name, "max_touch_v": g.value_v, "touch_location": _pt(g.location), "ok": g.ok}
+                    for g in gates
+                ],
+                "ok": t.ok and s.ok and all(g.ok for g in gates),
+            }
+        )
+    out["fences"] = fences
+    out["check_points"] = [
+        {
+            "label": c.name,
+            "group": t.metal,
+            "location": _pt(c.location),
+            "touch_v": c.value_v,
+            "limit": c.limit_v,
+            "ok": c.ok,
+        }
+        for c, t in zip(
+            [c for c in m.checks if c.kind == "point"], [t for t in m.touches if t.kind == "point"], strict=True
+        )
+    ]
+    out["check_areas"] = [
+        {
+            "area": a.name,
+            "max_touch_v": checks[("touch", "area", a.name)].value_v,
+            "touch_location": _pt(checks[("touch", "area", a.name)].location),
+            "max_step_v": checks[("step", "area", a.name)].value_v,
+            "touch_ok": checks[("touch", "area", a.name)].ok,
+            "step_ok": checks[("step", "area", a.name)].ok,
+        }
+        for a in m.layout.check_areas
+    ]
+    out["check_areas_replace_footprint"] = m.layout.areas_replace_footprint
+    out["profiles"] = [
+        {
+            "label": p.label,
+            "start": _pt(p.start),
+            "end": _pt(p.end),
+            "distance_m": [round(float(d), 4) for d in p.distance_m],
+            "surface_potential_v": [float(v * gpr) for v in p.potential_pu],
+            "touch_to_grid_v": [float((1.0 - v) * gpr) for v in p.potential_pu],
+        }
+        for p in m.profiles
+    ]
+    out["checks"] = [
+        {
+            "criterion": c.criterion,
+            "kind": c.kind,
+            "name": c.name,
+            "value_v": c.value_v,
+            "limit_v": c.limit_v,
+            "margin_pct": c.margin_pct,
+            "ok": c.ok,
+        }
+        for c in m.checks
+    ]
+    return out

@@ -62,7 +62,7 @@ def summary(results: Results) -> list:
     lim = results.limits
     overall = (
         f"Overall: {verdict(a.passed)} &nbsp; (governing criterion: {a.governing}, margin "
-        f"{min(a.touch_margin_pct, a.step_margin_pct):+.1f} %)"
+        f"{a.governing_margin_pct:+.1f} %)"
     )
     rows = [
         ["Criterion", "Computed", "Tolerable", "Margin [%]", "Result"],
