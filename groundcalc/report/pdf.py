@@ -372,6 +372,10 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story += soil_fit_section(results)
     story += [PageBreak()]
     story += figures_section(results)
+    if results.metal is not None:
+        from .metal import metal_section
+
+        story += metal_section(results)
     story += closed_form_section(results)
     story += sizing_section(results)
     story += notices(results)
