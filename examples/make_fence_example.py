@@ -4,17 +4,20 @@ The scenario is invented for demonstration: the made-up "Kestrel Brook"
 substation of make_example.py, with
 
 - a perimeter fence 1.5 m outside the grid (steel posts every 2.5 m, 1 m deep)
-  with a 4 m gate on the south side,
+  with a 4 m gate on the south side, and a grading conductor 1 m outside the
+  fence joined to the grid (common practice for a bonded fence),
+- the neighbouring farm's paddock fence, 4 m east of the site fence and not
+  bonded to anything (it floats and picks up a transferred potential),
 - a ductile-iron water main crossing the yard at 1.2 m depth, not bonded
   (it floats at a transferred potential),
 - check points at a breaker handle, a standpipe on the water main outside the
-  fence and a lighting pole in the car park,
-- a car park east of the fence as a check area, and two profiles.
+  fence and a lighting pole in the car park fed from the station (bonded),
+- the car park round the lighting pole as a check area, and two profiles.
 
 Files:
 
-- kestrel-brook-fence.xlsx: the fence bonded to the grid.
-- kestrel-brook-fence-unbonded.xlsx: the same fence not bonded (it fails touch).
+- kestrel-brook-fence.xlsx: the perimeter fence bonded to the grid.
+- kestrel-brook-fence-unbonded.xlsx: the same with the perimeter fence not bonded.
 
 Run from the repository root:  python examples/make_fence_example.py
 """
@@ -73,6 +76,39 @@ def build(path: Path = BONDED, bonded: bool = True) -> Path:
             "Gate swing [m]": 4.0,
         },
     )
+    # grading conductor 1 m outside the fence, joined to the grid by four straight jumpers
+    ring = [(-2.5, -2.5), (74.5, -2.5), (74.5, 42.5), (-2.5, 42.5), (-2.5, -2.5)]
+    jumpers = [((30, 0), (30, -2.5)), ((30, 40), (30, 42.5)), ((0, 20), (-2.5, 20)), ((72, 17.5), (74.5, 17.5))]
+    edges = [(f"Grading-{k + 1}", ring[k], ring[k + 1]) for k in range(4)]
+    edges += [(f"Jumper-{k + 1}", a, b) for k, (a, b) in enumerate(jumpers)]
+    for label, a, b in edges:
+        _append(
+            wb["Conductors"],
+            {
+                "Label": label,
+                "X1 [m]": a[0],
+                "Y1 [m]": a[1],
+                "Depth1 [m]": 0.5,
+                "X2 [m]": b[0],
+                "Y2 [m]": b[1],
+                "Depth2 [m]": 0.5,
+                "Diameter [mm]": 12,
+            },
+        )
+    _append(
+        ws,
+        {
+            "Label": "Paddock",
+            "X1 [m]": 77.5,
+            "Y1 [m]": 20,
+            "X2 [m]": 150,
+            "Y2 [m]": 20,
+            "Post spacing [m]": 3,
+            "Post length [m]": 0.8,
+            "Post diameter [mm]": 50,
+            "Bonded": "no",
+        },
+    )
     _append(wb["Metal"], {"Group": "Water main", "Bonded to grid": "no"})
     _append(
         wb["Conductors"],
@@ -95,7 +131,7 @@ def build(path: Path = BONDED, bonded: bool = True) -> Path:
         ("Car park lighting pole", 85.0, 8.0, None),
     ]:
         _append(wb["Check points"], {"Label": label, "X [m]": x, "Y [m]": y, "Group": group})
-    for k, (x, y) in enumerate([(76, -5), (95, -5), (95, 20), (76, 20)], start=1):
+    for k, (x, y) in enumerate([(80, 2), (92, 2), (92, 14), (80, 14)], start=1):
         _append(wb["Check areas"], {"Area": "Car park", "Vertex": k, "X [m]": x, "Y [m]": y})
     _append(
         wb["Profiles"],
