@@ -57,8 +57,8 @@ def _check(results, kind, name=None):
 
 
 def test_bonded_fence_outside_the_grid_has_more_touch_than_the_meshes(bonded):
-    # Common practice (IEEE Std 80-2013, clause 17.3 on fences): the surface just outside the
-    # grid edge falls away fast, so a fence at the GPR 1.5 m outside sees a larger touch
+    # Common practice (IEEE Std 80 discusses fence grounding; clause not cited, numbers differ
+    # between editions): the surface just outside the grid edge falls away fast, so a fence at the GPR 1.5 m outside sees a larger touch
     # voltage than the mesh touch inside the footprint.
     fence = _check(bonded, "fence")
     assert fence.value_v > bonded.max_touch_v
@@ -80,8 +80,8 @@ def test_floating_fence_sits_between_remote_earth_and_the_gpr_and_touches_less(b
 
 
 def test_fence_touch_is_the_fence_potential_minus_the_surface_at_reach(floating):
-    # Definition of touch (IEEE Std 80-2013, clause 3 and 8.3): metal potential minus the
-    # potential where the person stands; here the reported worst point is 1 m from the fence.
+    # Definition of touch voltage (IEEE Std 80, definitions [mem]): metal potential minus the
+    # potential where the person stands; the reach is 1 m (common practice, shared REFERENCES.md).
     c = _check(floating, "fence")
     x, y = c.location
     lo, hi = -1.5, 13.5

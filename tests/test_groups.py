@@ -25,10 +25,13 @@ def solved(grid, groups, seg_len=0.5):
 
 
 def sunde_mutual(rho, length, spacing):
-    """Mutual resistance of two parallel driven rods (uniform current on each, average potential):
-    R12 = rho/(2 pi L) [asinh(2L/D) - sqrt(1 + (D/2L)^2) + D/(2L)]; E. D. Sunde, Earth Conduction
-    Effects in Transmission Systems (1949/1968), mutual resistance of two rods; also G. F. Tagg,
-    Earth Resistances (1964). Far apart it tends to the hemisphere value rho/(2 pi D)."""
+    """Mutual resistance of two parallel driven rods of length L at spacing D in a uniform half-space,
+    each with uniform current, potential averaged over the other rod:
+    R12 = rho/(2 pi L) [asinh(2L/D) - sqrt(1 + (D/2L)^2) + D/(2L)].
+    [calc]: derived here from the closed-form double integral of 1/R over two parallel lines
+    (DESIGN.md, parallel segments) applied to each rod with its surface image. Sunde (1968) and
+    Tagg (1964) give closed forms for two rods [mem, not checked against the books]. Far apart it
+    tends to the point-source value rho/(2 pi D) (textbook result, shared REFERENCES.md)."""
     q = spacing / (2 * length)
     return rho / (2 * np.pi * length) * (np.arcsinh(1 / q) - np.sqrt(1 + q * q) + q)
 
