@@ -137,3 +137,39 @@ def test_check_area_outside_the_grid_sees_more_touch_than_the_footprint():
     assert r.gpr_v - c.value_v == pytest.approx(v_point, rel=0.03)
     step = next(c for c in r.metal.checks if c.criterion == "step")
     assert 0 < step.value_v < r.max_step_v
+
+
+def test_report_section_lists_groups_and_checks_as_in_the_json(bonded, tmp_path):
+    # The report prints the same numbers as the JSON of the same run (pypdf text extraction).
+    from pypdf import PdfReader
+
+    from groundcalc.report.pdf import write_report
+
+    write_report(bonded, tmp_path / "r.pdf", "test", "0" * 64)
+    text = " ".join(" ".join(p.extract_text() for p in PdfReader(tmp_path / "r.pdf").pages).split())
+    assert "Fences, other metal and check points" in text
+    d = results_to_dict(bonded)
+    for c in d["checks"]:
+        assert f"{c['value_v']:,.0f}" in text
+    assert ("FAIL" in text) == (not all(c["ok"] for c in d["checks"]) or not d["passed"])
+    assert f"{d['fences'][0]['potential_v']:,.0f}" in text
+
+
+def test_two_layer_reciprocity_and_zero_net_current():
+    # Green's reciprocity theorem holds in layered soil too: swap which group is energised.
+    from groundcalc.geometry.metal import segment_groups
+    from groundcalc.model import Conductor, Soil
+    from groundcalc.mom.assembly import build_greens
+    from groundcalc.mom.groups import solve_groups
+
+    soil = Soil("two-layer", 100.0, 2.0, 400.0)
+    a = [Conductor("a", (0, 0, 0.5), (8, 0, 0.5), 0.01), Conductor("a2", (0, 0, 0.5), (0, 0, 4.0), 0.016)]
+    b = [Conductor("b", (12, 3, 1.0), (20, 3, 1.0), 0.05)]
+    out = []
+    for grid, other in ((a, b), (b, a)):
+        gs = segment_groups(grid, MetalLayout(groups=(MetalGroup("x", False, tuple(other)),)), 1.0, 2.0)
+        seg = gs.segmentation.segments
+        res = solve_groups(seg, build_greens(soil, seg), gs.group, gs.bonded)
+        assert abs(res.net_current_a[1]) < 1e-12 * res.net_current_a[0]
+        out.append(res.potential_pu[1] * res.solution.resistance_ohm)
+    assert out[0] == pytest.approx(out[1], rel=1e-6)
