@@ -58,8 +58,8 @@ def _check(results, kind, name=None):
 
 def test_bonded_fence_outside_the_grid_has_more_touch_than_the_meshes(bonded):
     # Common practice (IEEE Std 80 discusses fence grounding; clause not cited, numbers differ
-    # between editions): the surface just outside the grid edge falls away fast, so a fence at the GPR 1.5 m outside sees a larger touch
-    # voltage than the mesh touch inside the footprint.
+    # between editions): the surface just outside the grid edge falls away fast, so a fence at
+    # the GPR 1.5 m outside sees a larger touch voltage than the mesh touch inside the footprint.
     fence = _check(bonded, "fence")
     assert fence.value_v > bonded.max_touch_v
     assert bonded.metal.potential_pu("F") == 1.0
