@@ -205,6 +205,8 @@ def evaluate(
         result_assessment, metal = metal_checks(design, geometry, gpr, limits, result_assessment)
     closed = closed_form_check(design, field_result.raster.touch_area.footprint, ig)
     extra: list[Notice] = []
+    if metal is not None:
+        extra += list(metal.notices)
     if closed is not None:
         extra += [Notice("closed-form-validity", w, "note") for w in closed.warnings]
     groups: dict[tuple, list[str]] = {}

@@ -17,7 +17,7 @@ import numpy as np
 
 from .analysis import GeometryResult
 from .geometry.metal import MetalLayout, segment_groups
-from .model import Design
+from .model import Design, Notice
 from .mom.assembly import build_greens
 from .mom.groups import GroupSolution, solve_groups
 from .safety.checks import Check, MetalAssessment
@@ -95,6 +95,7 @@ class MetalResult:
     profiles: tuple[ProfileData, ...]
     checks: tuple[Check, ...]
     gpr_v: float
+    notices: tuple[Notice, ...] = ()
 
     def group_potential_v(self, name: str) -> float:
         """Potential of a group (``"grid"`` for the grid). [V]"""
@@ -153,5 +154,25 @@ def metal_checks(
         tuple(checks),
         not layout.areas_replace_footprint,
     )
-    result = MetalResult(layout, groups, tuple(touches), tuple(steps), profiles, tuple(checks), gpr_v)
+    notes = []
+    bonded = [g.name for g in layout.groups if g.bonded]
+    if bonded:
+        notes.append(
+            Notice(
+                "bonded-metal",
+                "The grid resistance and GPR include the metal bonded to the grid (" + ", ".join(bonded) + "); "
+                "the IEEE Std 80 closed forms beside them describe the grid alone.",
+                "note",
+            )
+        )
+    if layout.areas_replace_footprint:
+        notes.append(
+            Notice(
+                "check-areas-replace",
+                "Touch of grid metal counts over the check areas only (Settings: Check areas = replace); "
+                "the touch voltage over the grid footprint is reported for information.",
+                "note",
+            )
+        )
+    result = MetalResult(layout, groups, tuple(touches), tuple(steps), profiles, tuple(checks), gpr_v, tuple(notes))
     return combined, result

@@ -173,3 +173,29 @@ def test_two_layer_reciprocity_and_zero_net_current():
         assert abs(res.net_current_a[1]) < 1e-12 * res.net_current_a[0]
         out.append(res.potential_pu[1] * res.solution.resistance_ohm)
     assert out[0] == pytest.approx(out[1], rel=1e-6)
+
+
+def test_verdict_counts_every_check_and_check_areas_may_replace_the_footprint(bonded):
+    from groundcalc.safety.checks import Check, MetalAssessment
+
+    lim = bonded.limits
+    ok_check = Check("touch", "area", "yard", 0.5 * lim.touch_v, lim.touch_v, (0.0, 0.0))
+    bad_check = Check("step", "area", "yard", 1.2 * lim.step_v, lim.step_v, ((0.0, 0.0), (1.0, 0.0)))
+    high_touch = 1.1 * lim.touch_v  # the footprint fails
+    counted = MetalAssessment(lim, high_touch, 0.1 * lim.step_v, True, (ok_check,), True)
+    replaced = MetalAssessment(lim, high_touch, 0.1 * lim.step_v, True, (ok_check,), False)
+    assert not counted.passed and counted.governing == "touch"
+    assert replaced.passed and replaced.governing == "touch at area 'yard'"
+    failing = MetalAssessment(lim, 0.1 * lim.touch_v, 0.1 * lim.step_v, True, (ok_check, bad_check), True)
+    assert not failing.passed and failing.governing == "step at area 'yard'"
+    assert failing.governing_margin_pct == pytest.approx(-20.0)
+
+
+def test_bonded_metal_and_replace_mode_are_noted():
+    inner = CheckArea("inner", ((2.0, 2.0), (10.0, 2.0), (10.0, 10.0), (2.0, 10.0)))
+    r = analyse(_design(True, check_areas=(inner,), areas_replace_footprint=True))
+    codes = {n.code for n in r.notices}
+    assert {"bonded-metal", "check-areas-replace"} <= codes
+    assert not r.assessment.footprint_counts
+    # inside the footprint the area touch cannot exceed the footprint maximum (same field, subset)
+    assert _check(r, "area", "inner").value_v <= r.max_touch_v * (1 + 1e-6)
