@@ -133,3 +133,14 @@ def test_floating_ring_around_a_small_electrode_takes_the_potential_of_a_point_s
     point = RHO * i_a / (4 * np.pi) * np.mean(1 / np.hypot(d, h - z0) + 1 / np.hypot(d, h + z0))
     # tolerance: the rod is 1 m long, not a point (its potential at 30 m differs by ~1e-4)
     assert res.potential_pu[1] == pytest.approx(point, rel=2e-3)
+
+
+def test_floating_rod_far_from_a_grid_takes_the_point_source_potential():
+    # Far from a 10 m grid its field is that of a point source on the surface of the half-space,
+    # V = rho I / (2 pi r) (Sunde 1968; design notes). Tolerance 1 %: at r = 60 m the grid's
+    # size and the rod's 2 m length change the potential by less than (5/60)^2.
+    grid = GridSpec("G", 0, 0, 10, 10, 3, 3, 0.5, 0.01).conductors()
+    r = 60.0
+    _, res = solved(grid, [MetalGroup("B", False, (rod("B", 5 + r, 5, 2.0),))], seg_len=2.0)
+    v_per_a = res.potential_pu[1] * res.solution.resistance_ohm
+    assert v_per_a == pytest.approx(RHO / (2 * np.pi * r), rel=0.01)

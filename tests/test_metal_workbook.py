@@ -6,6 +6,7 @@ import openpyxl
 import pytest
 
 from groundcalc.errors import InputError
+from groundcalc.io.metal import read_metal
 from groundcalc.io.workbook import read_design
 
 from .conftest import write_workbook
@@ -13,20 +14,7 @@ from .conftest import write_workbook
 GRID = [["G", 0, 0, 20, 20, 3, 3, 0.5, 10]]
 
 
-_BASE: dict = {}
-
-
-def _book(tmp_path, settings=None, **sheets):
-    """A valid small design plus rows (dicts header -> value) on the named sheets."""
-    if settings is not None:
-        path = write_workbook(tmp_path / "m.xlsx", grids=GRID, settings=settings)
-        wb = openpyxl.load_workbook(path)
-    else:
-        if "wb" not in _BASE:
-            _BASE["wb"] = write_workbook(tmp_path / "base.xlsx", grids=GRID).read_bytes()
-        path = tmp_path / "m.xlsx"
-        path.write_bytes(_BASE["wb"])
-        wb = openpyxl.load_workbook(path)
+def _fill(wb, sheets: dict) -> None:
     for name, rows in sheets.items():
         ws = wb[name.replace("_", " ")]
         cols = {str(c.value): c.column for c in ws[1]}
@@ -34,8 +22,27 @@ def _book(tmp_path, settings=None, **sheets):
             r = ws.max_row + 1
             for header, v in values.items():
                 ws.cell(row=r, column=cols[header], value=v)
+
+
+def _book(tmp_path, settings=None, **sheets):
+    """A valid small design file plus rows (dicts header -> value) on the named sheets."""
+    path = write_workbook(tmp_path / "m.xlsx", grids=GRID, settings=settings)
+    wb = openpyxl.load_workbook(path)
+    _fill(wb, sheets)
     wb.save(path)
     return path
+
+
+def _read_in_memory(**sheets):
+    """The metal sheets of an in-memory workbook, read as read_design reads them (no file)."""
+    from groundcalc.io.template import build_template
+    from groundcalc.io.workbook import _read_conductors, _read_rods
+
+    wb = build_template()
+    wb["Grids"].append(GRID[0])
+    _fill(wb, sheets)
+    notices = []
+    return read_metal(wb, _read_conductors(wb), _read_rods(wb), notices, True), notices
 
 
 FENCE = {
@@ -147,8 +154,10 @@ def test_groups_fences_points_areas_profiles_are_read(tmp_path):
         ),
     ],
 )
-def test_bad_metal_input_names_sheet_row_column_and_fix(tmp_path, sheets, where, words):
-    err = _error(_book(tmp_path, **sheets))
+def test_bad_metal_input_names_sheet_row_column_and_fix(sheets, where, words):
+    with pytest.raises(InputError) as e:
+        _read_in_memory(**sheets)
+    err = e.value
     assert err.sheet == where[0]
     assert where[1].lower() in (err.column or "").lower()
     assert err.row is not None and err.row >= 2
@@ -184,6 +193,6 @@ def test_every_conductor_in_a_group_leaves_no_grid(tmp_path):
     assert "no grid" in err.problem and err.sheet == "Conductors"
 
 
-def test_empty_group_is_noted(tmp_path):
-    d = read_design(_book(tmp_path, Metal=[{"Group": "Rail", "Bonded to grid": "yes"}], Fences=[FENCE]))
-    assert any(n.code == "empty-group" and "Rail" in n.message for n in d.notices)
+def test_empty_group_is_noted():
+    _, notices = _read_in_memory(Metal=[{"Group": "Rail", "Bonded to grid": "yes"}], Fences=[FENCE])
+    assert any(n.code == "empty-group" and "Rail" in n.message for n in notices)
