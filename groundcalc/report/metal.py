@@ -228,6 +228,20 @@ def metal_section(results: Results) -> list:
     out = [Paragraph("Fences, other metal and check points", H2), Paragraph(text, BODY), Spacer(1, 3)]
     out += [KeepTogether([metal_plan(results), Spacer(1, 3)])]
     out += _groups_table(results) + [Spacer(1, 4)]
-    out += _checks_table(results) + [Spacer(1, 6)]
+    out += _checks_table(results) + [Spacer(1, 3)]
+    failing = [c for c in m.checks if not c.ok]
+    if failing:
+        advice = (
+            "Failing checks: "
+            + "; ".join(c.title for c in failing[:8])
+            + (" ..." if len(failing) > 8 else "")
+            + ". Common remedies: for a bonded fence, a grading conductor about 1 m outside it joined to the "
+            "grid, and the grid extended under gate swings; for an isolated fence, keeping it well away from "
+            "the grid or inserting insulating sections; for long metal leaving the site (pipes, fences, rails), "
+            "insulating joints or sections where it leaves; a surface layer where people stand; supplies to "
+            "equipment outside the grid through isolation rather than the grid's earth."
+        )
+        out.append(Paragraph(advice, BODY))
+    out.append(Spacer(1, 6))
     out += _profiles(results)
     return out
