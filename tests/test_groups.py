@@ -144,3 +144,14 @@ def test_floating_rod_far_from_a_grid_takes_the_point_source_potential():
     _, res = solved(grid, [MetalGroup("B", False, (rod("B", 5 + r, 5, 2.0),))], seg_len=2.0)
     v_per_a = res.potential_pu[1] * res.solution.resistance_ohm
     assert v_per_a == pytest.approx(RHO / (2 * np.pi * r), rel=0.01)
+
+
+def test_floating_metal_touching_the_grid_is_reported_and_loose_grid_parts_still_are():
+    # A floating pipe laid across a grid conductor at the same depth is in contact with it.
+    grid = GridSpec("G", 0, 0, 10, 10, 3, 3, 0.5, 0.01).conductors()
+    loose = Conductor("loose", (30, 0, 0.5), (34, 0, 0.5), 0.01)
+    pipe = Conductor("pipe", (5, -5, 0.5), (5, 15, 0.5), 0.1)
+    gs = segment_groups(grid + [loose], MetalLayout(groups=(MetalGroup("pipe", False, (pipe,)),)), 2.0)
+    codes = {n.code: n.message for n in gs.segmentation.notices}
+    assert "floating-touches-grid" in codes and "pipe" in codes["floating-touches-grid"]
+    assert "not-connected" in codes and "loose" in codes["not-connected"] and "pipe" not in codes["not-connected"]
