@@ -83,6 +83,10 @@ def plan_lines(design: Design) -> np.ndarray:
 
 def solve_geometry(design: Design) -> GeometryResult:
     """Segment the conductors and solve for the leakage currents."""
+    if design.metal is not None and design.metal.groups:
+        from .metal_analysis import solve_metal_geometry
+
+        return solve_metal_geometry(design)
     t0 = time.perf_counter()
     interface = design.soil.thickness_m if design.soil.model == "two-layer" else None
     conductors = design.all_conductors()
@@ -150,6 +154,7 @@ class Results:
     soil_fit: SoilFit | None = None
     closed_form: ClosedForm | None = None
     sizing: ConductorSizing | None = None
+    metal: object | None = None  # groundcalc.metal_analysis.MetalResult when the design has other metal
 
     @property
     def resistance_ohm(self) -> float:
@@ -193,8 +198,15 @@ def evaluate(
     limits = tolerable_limits(design.soil, design.surface_layer, f)
     sizing = conductor_sizing(design, df)
     result_assessment = assess(limits, field_result.touch.voltage_v * gpr, field_result.step.voltage_v * gpr, sizing.ok)
+    metal = None
+    if design.metal is not None:
+        from .metal_analysis import metal_checks
+
+        result_assessment, metal = metal_checks(design, geometry, gpr, limits, result_assessment)
     closed = closed_form_check(design, field_result.raster.touch_area.footprint, ig)
     extra: list[Notice] = []
+    if metal is not None:
+        extra += list(metal.notices)
     if closed is not None:
         extra += [Notice("closed-form-validity", w, "note") for w in closed.warnings]
     groups: dict[tuple, list[str]] = {}
@@ -221,7 +233,7 @@ def evaluate(
         + tuple(extra)
     )
     return Results(
-        design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices, soil_fit, closed, sizing
+        design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices, soil_fit, closed, sizing, metal
     )
 
 

@@ -28,10 +28,11 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
     ),
     (
         "Model assumptions",
-        "All conductors are bonded and at one potential (no conductor impedance); power "
-        "frequency only (no lightning or switching surges); soil idealised as uniform or two "
-        "horizontal layers; no transferred potentials through fences, pipes, rails, cable "
-        "sheaths or neutrals; no other buried metal nearby.",
+        "The grid is at one potential (no conductor impedance); metal on the Metal and Fences sheets "
+        "is at its own potential (bonded at the GPR, or floating); power frequency only (no lightning "
+        "or switching surges); soil idealised as uniform or two horizontal layers; transferred "
+        "potentials beyond the modelled length of fences, pipes and rails, and through cable "
+        "sheaths, neutrals or other impedances, are not modelled; other buried metal only as entered.",
     ),
     (
         "Input data dominate",
@@ -40,7 +41,9 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
     ),
     (
         "Where touch and step are checked",
-        "Touch voltage is checked over the grid footprint (the area enclosed by the outer "
-        "conductors); metal that can be touched outside it, such as a fence, needs its own check.",
+        "Touch voltage is checked over the grid footprint and the check areas, on fences at the fence "
+        "reach on both sides, on gates over their swing and at the check points; metal left off the "
+        "workbook is not checked. Step is checked over the grid and margin, the fence-reach bands and "
+        "the check areas. Fence posts are bare rods from grade (no footings).",
     ),
 )

@@ -83,6 +83,10 @@ def _summary_lines(results) -> list[str]:
             f"{sz.duration_s:g} s (IEEE Std 80 Eq. 37); smallest used {min(i.area_mm2 for i in sz.items):.1f} mm2"
             f"   {verdict}"
         )
+    if results.metal is not None:
+        from .report.metal import metal_lines
+
+        lines += metal_lines(results)
     lines.append(f"Overall: {'PASS' if a.passed else 'FAIL'} (governing: {a.governing})")
     lines += closed_form_lines(results)
     return lines

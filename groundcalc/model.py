@@ -8,6 +8,10 @@ resistivities ohm*m, currents amperes, times seconds.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .geometry.metal import MetalLayout
 
 __all__ = [
     "Conductor",
@@ -331,6 +335,7 @@ class Design:
     source_name: str = ""
     wenner: WennerReadings | None = None
     variants: tuple[Variant, ...] = ()
+    metal: MetalLayout | None = None  # metal besides the grid (groups, fences, check points)
 
     def all_conductors(self) -> list[Conductor]:
         """Conductors, generated grid lines and rods as one list."""

@@ -185,6 +185,10 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
     out["soil"]["series_tolerance"] = g.tolerance or None
     if results.soil_fit is not None:
         out["soil_fit"] = soil_fit_to_dict(results.soil_fit)
+    if results.metal is not None:
+        from .metal import metal_to_dict
+
+        out.update(metal_to_dict(results))
     return out
 
 

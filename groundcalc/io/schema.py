@@ -10,7 +10,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["ALL_SHEETS", "Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "VARIANTS", "WENNER", "sheet_spec"]
+__all__ = [
+    "ALL_SHEETS",
+    "METAL_SHEETS",
+    "Field",
+    "KEY_SHEETS",
+    "SheetSpec",
+    "TABLE_SHEETS",
+    "VARIANTS",
+    "WENNER",
+    "sheet_spec",
+]
 
 
 @dataclass(frozen=True)
@@ -271,6 +281,13 @@ CONDUCTORS = SheetSpec(
             "mass of metal. Blank = hard-drawn copper.",
             typical="hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ...",
         ),
+        Field(
+            "Group",
+            "text",
+            help="Metal group named on the 'Metal' sheet that this belongs to (other buried metal at its own "
+            "potential: a pipe, a rail, equipment not on the grid). Blank = the grid.",
+            typical="blank, or a name from the Metal sheet",
+        ),
     ),
     "One row per straight buried bare conductor. Conductors that cross or touch are joined.",
 )
@@ -298,6 +315,13 @@ RODS = SheetSpec(
             help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
             "mass of metal. Blank = hard-drawn copper.",
             typical="copper-clad steel rod 20%, zinc-coated steel rod, stainless-clad steel rod, ...",
+        ),
+        Field(
+            "Group",
+            "text",
+            help="Metal group named on the 'Metal' sheet that this belongs to (other buried metal at its own "
+            "potential: a pipe, a rail, equipment not on the grid). Blank = the grid.",
+            typical="blank, or a name from the Metal sheet",
         ),
     ),
     "One row per driven vertical rod.",
@@ -381,6 +405,24 @@ SETTINGS = SheetSpec(
             "onto it (each move is reported). Blank = 0: only ends within 1 mm count as joined.",
             "0 to 0.1 m",
         ),
+        Field(
+            "Fence reach",
+            _LEN,
+            False,
+            "positive",
+            "Distance from a fence at which a person touching it stands; touch on fences is checked at this "
+            "distance on both sides along every run. Blank = 1 m (common practice).",
+            "1 m",
+        ),
+        Field(
+            "Check areas",
+            "choice",
+            False,
+            help="How the polygons of the 'Check areas' sheet are used: extend (touch is checked over the grid "
+            "footprint and the areas) or replace (over the areas only). Blank = extend.",
+            typical="extend",
+            choices=("extend", "replace"),
+        ),
     ),
     "Numerical settings. All optional.",
 )
@@ -455,9 +497,126 @@ VARIANTS = SheetSpec(
     "reports the base case and every variant side by side; the geometry is solved once per soil model.",
 )
 
+YES_NO = ("yes", "no")
+
+METAL = SheetSpec(
+    "Metal",
+    "table",
+    (
+        Field("Group", "text", True, help="Name of a metal group; conductors and rods join it by 'Group'."),
+        Field(
+            "Bonded to grid",
+            "choice",
+            True,
+            help="yes: the group is bonded to the grid and rises to the GPR. no: it floats (no net current) and "
+            "takes the potential the grid's field puts on it (a transferred potential).",
+            typical="yes or no",
+            choices=YES_NO,
+        ),
+    ),
+    "Optional: buried metal besides the grid, one group per row (pipes, rails, isolated equipment). Its "
+    "conductors and rods are on the Conductors and Rods sheets with this name in their 'Group' column.",
+)
+
+FENCES = SheetSpec(
+    "Fences",
+    "table",
+    (
+        Field("Label", "text", True, help="Fence name. Runs with the same label are one fence (one metal group)."),
+        Field("X1", _LEN, True, help="Plan x of the first end of the run (the hinge of a gate)."),
+        Field("Y1", _LEN, True, help="Plan y of the first end."),
+        Field("X2", _LEN, True, help="Plan x of the second end."),
+        Field("Y2", _LEN, True, help="Plan y of the second end."),
+        Field("Post spacing", _LEN, True, "positive", "Largest distance between posts along the run.", "2 to 3 m"),
+        Field("Post length", _LEN, True, "positive", "Buried length of each post (top at grade).", "0.6 to 1.5 m"),
+        Field("Post diameter", _LEN, True, "positive", "Post diameter.", "40 to 80 mm", unit="mm"),
+        Field(
+            "Bonded",
+            "choice",
+            True,
+            help="yes: bonded to the grid (at the GPR). no: isolated; the fence floats at its own potential.",
+            typical="yes or no",
+            choices=YES_NO,
+        ),
+        Field(
+            "Bottom wire depth",
+            _LEN,
+            False,
+            "positive",
+            "Depth of a bare wire buried along the run and joined to the posts. Blank = none.",
+            "0.3 to 0.5 m",
+        ),
+        Field(
+            "Bottom wire diameter",
+            _LEN,
+            False,
+            "positive",
+            "Diameter of the bottom wire. Blank = 10 mm.",
+            "8 to 12 mm",
+            unit="mm",
+        ),
+        Field(
+            "Gate swing",
+            _LEN,
+            False,
+            "positive",
+            "The run carries a gate hinged at (X1, Y1) whose leaf is this long; touch is checked over the whole "
+            "disc it sweeps (both ways). Blank = no gate.",
+            "1 to 5 m",
+        ),
+    ),
+    "Optional: fences, one straight run per row. Posts become rods from grade; a bottom wire becomes a buried "
+    "conductor. Touch on a fence is checked at the fence reach (Settings) on both sides of every run.",
+)
+
+CHECK_POINTS = SheetSpec(
+    "Check points",
+    "table",
+    (
+        Field("Label", "text", True, help="Name, e.g. 'breaker handle', 'lighting pole 3'."),
+        Field("X", _LEN, True, help="Plan x where a person stands while touching the metal."),
+        Field("Y", _LEN, True, help="Plan y of that place."),
+        Field(
+            "Group",
+            "text",
+            help="Metal touched: a group of the Metal sheet or a fence label. Blank = the grid.",
+            typical="blank",
+        ),
+    ),
+    "Optional: places where a person touches metal, one per row; each gives a touch voltage and a PASS/FAIL.",
+)
+
+CHECK_AREAS = SheetSpec(
+    "Check areas",
+    "table",
+    (
+        Field("Area", "text", True, help="Name of the area; rows with the same name are the vertices of one polygon."),
+        Field("Vertex", "count", True, "positive", "Order of the vertex around the polygon (1, 2, 3, ...).", "1 to 50"),
+        Field("X", _LEN, True, help="Plan x of the vertex."),
+        Field("Y", _LEN, True, help="Plan y of the vertex."),
+    ),
+    "Optional: polygons where people walk and touch grid-connected metal (a yard outside the grid, a "
+    "walkway); touch and step are checked over them. See 'Check areas' on the Settings sheet.",
+)
+
+PROFILES = SheetSpec(
+    "Profiles",
+    "table",
+    (
+        Field("Label", "text", True, help="Name of the profile."),
+        Field("X1", _LEN, True, help="Plan x of the start."),
+        Field("Y1", _LEN, True, help="Plan y of the start."),
+        Field("X2", _LEN, True, help="Plan x of the end."),
+        Field("Y2", _LEN, True, help="Plan y of the end."),
+    ),
+    "Optional: straight lines along which the surface potential and touch voltage are plotted and listed.",
+)
+
+METAL_SHEETS = (METAL, FENCES, CHECK_POINTS, CHECK_AREAS, PROFILES)
+
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
-TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS)
-ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS)
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS) + METAL_SHEETS
+ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS) + METAL_SHEETS
 
 
 def sheet_spec(name: str) -> SheetSpec:

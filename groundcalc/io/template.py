@@ -34,6 +34,9 @@ _INTRO = [
     "row per straight conductor on the 'Conductors' sheet, or both. Conductors that cross or "
     "touch are joined. Rods go on the 'Rods' sheet; a rod whose top depth equals the grid depth "
     "and whose position lies on a conductor is joined to it.",
+    "Other buried metal (pipes, rails, isolated equipment) goes on the Conductors and Rods sheets with a name in "
+    "their 'Group' column and that name on the 'Metal' sheet (bonded to the grid or floating). Fences go on the "
+    "'Fences' sheet; places where people touch metal on 'Check points'; extra walking areas on 'Check areas'.",
     "Results are a draft design aid for review by a licensed professional engineer; the "
     "applicable standards and local codes govern. See CAUTIONS.md.",
 ]

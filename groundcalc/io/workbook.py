@@ -969,6 +969,9 @@ def read_design(path: str | Path) -> Design:
         conductors = _read_conductors(wb)
         rods = _read_rods(wb)
         grids = _read_grids(wb)
+        from .metal import read_metal
+
+        conductors, rods, metal = read_metal(wb, conductors, rods, notices, bool(grids))
         _check_temperature(
             wb, fault, {c.material for c in conductors} | {r.material for r in rods} | {g.material for g in grids}
         )
@@ -1009,5 +1012,6 @@ def read_design(path: str | Path) -> Design:
         source_name=Path(path).name,
         wenner=wenner,
         variants=tuple(variants),
+        metal=metal,
     )
     return clean_design(design, settings.snap_tolerance_m)

@@ -62,7 +62,7 @@ def summary(results: Results) -> list:
     lim = results.limits
     overall = (
         f"Overall: {verdict(a.passed)} &nbsp; (governing criterion: {a.governing}, margin "
-        f"{min(a.touch_margin_pct, a.step_margin_pct):+.1f} %)"
+        f"{a.governing_margin_pct:+.1f} %)"
     )
     rows = [
         ["Criterion", "Computed", "Tolerable", "Margin [%]", "Result"],
@@ -372,6 +372,10 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     story += soil_fit_section(results)
     story += [PageBreak()]
     story += figures_section(results)
+    if results.metal is not None:
+        from .metal import metal_section
+
+        story += metal_section(results)
     story += closed_form_section(results)
     story += sizing_section(results)
     story += notices(results)

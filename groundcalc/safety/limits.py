@@ -151,6 +151,11 @@ class Assessment:
         """``"touch"`` or ``"step"``, whichever has the smaller margin."""
         return "touch" if self.touch_margin_pct <= self.step_margin_pct else "step"
 
+    @property
+    def governing_margin_pct(self) -> float:
+        """Margin of the governing criterion. [%]"""
+        return min(self.touch_margin_pct, self.step_margin_pct)
+
 
 def assess(limits: Limits, touch_v: float, step_v: float, conductors_ok: bool = True) -> Assessment:
     """Compare computed touch and step voltages with the limits (and carry the sizing verdict)."""
