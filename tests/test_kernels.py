@@ -6,13 +6,11 @@ import pytest
 from scipy.integrate import dblquad, quad
 
 from groundcalc.mom.integrals import (
-    FAR_RATIO,
-    far_pair_integral,
     line_integral,
-    pair_integral,
     parallel_pair_integral,
     perpendicular_pair_integral,
 )
+from groundcalc.mom.operator import FAR_RATIO, far_pair_integral, pair_integral
 
 
 def _num_pair(oa, ob, sa, sb, r2):

@@ -7,7 +7,7 @@ from groundcalc.geometry.segments import segment_conductors
 from groundcalc.model import Conductor, Rod, Soil
 from groundcalc.mom.assembly import assemble
 from groundcalc.mom.solver import solve
-from groundcalc.soil.greens import uniform_greens
+from groundcalc.soil.uniform import uniform_greens
 
 from .conftest import annex_b_grid
 

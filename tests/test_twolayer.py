@@ -9,7 +9,7 @@ from groundcalc.analysis import analyse
 from groundcalc.geometry.segments import move_off_interface, segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
 from groundcalc.mom.assembly import assemble, build_greens, general_entries
-from groundcalc.mom.integrals import pair_integral
+from groundcalc.mom.operator import pair_integral
 from groundcalc.mom.solver import Solution, solve
 from groundcalc.soil.twolayer import point_potential
 from groundcalc.surface.potential import surface_potential

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import logging
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import scipy.linalg
@@ -23,6 +24,7 @@ from ..geometry.segments import Segments
 from ..model import Notice
 from ..soil.greens import Greens
 from .assembly import assemble
+from .operator import Operator
 
 __all__ = ["Solution", "assemble", "solve"]
 
@@ -55,6 +57,11 @@ class Solution:
     greens: Greens
     method: str
     notices: tuple[Notice, ...] = ()
+
+    @cached_property
+    def operator(self) -> Operator:
+        """The operator of these segments and soil, for potentials at points (made once)."""
+        return Operator(self.segments, self.greens)
 
     def leakage_a(self, gpr_v: float) -> np.ndarray:
         """Leakage current of each segment at the given GPR. [A]"""
