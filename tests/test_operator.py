@@ -55,7 +55,7 @@ def test_surface_potential_tends_to_the_lower_layer_far_away(k):
     sol = _wire_solution(soil)
     r = 5000.0
     v = surface_potential(np.array([[5.0, r]]), sol, 1.0)[0]
-    total = float(sol.unit_currents_a.sum())
+    total = float(sol.currents_per_gpr.sum())
     assert v == pytest.approx(soil.rho2_ohm_m * total / (2 * np.pi * r), rel=1e-4)
 
 

@@ -238,9 +238,9 @@ def near_pair_integral(
     return _near_pair(oa, do, np.sqrt(_dot(do, do)), sa, sb, ds, np.sqrt(_dot(ds, ds)), radius2)
 
 
-def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
-    eo = do / lo[:, None]
-    es = ds / ls[:, None]
+def _near_pair(oa, do, len_o, sa, sb, ds, len_s, radius2) -> np.ndarray:
+    eo = do / len_o[:, None]
+    es = ds / len_s[:, None]
     cos = _dot(eo, es)
     out = np.empty(oa.shape[0])
 
@@ -251,7 +251,7 @@ def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
         w = start - oa[par]
         s = _dot(w, eo[par])
         perp = w - s[:, None] * eo[par]
-        out[par] = parallel_pair_integral(s, lo[par], ls[par], _dot(perp, perp) + radius2[par])
+        out[par] = parallel_pair_integral(s, len_o[par], len_s[par], _dot(perp, perp) + radius2[par])
 
     orth = np.abs(cos) < 1e-10
     if orth.any():
@@ -262,7 +262,7 @@ def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
         x1 = _dot(w, e1)
         y1 = -_dot(w, e2)
         c = _dot(w, nrm)
-        out[orth] = perpendicular_pair_integral(x1, x1 + lo[orth], y1, y1 + ls[orth], c * c + radius2[orth])
+        out[orth] = perpendicular_pair_integral(x1, x1 + len_o[orth], y1, y1 + len_s[orth], c * c + radius2[orth])
 
     other = ~par & ~orth
     if other.any():
@@ -273,5 +273,5 @@ def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
         s0, s1, r2 = sa[other], sb[other], radius2[other]
         for ti, wi in zip(t, wts, strict=True):
             acc += wi * line_integral(a0 + ti * d0, s0, s1, r2)
-        out[other] = acc * lo[other]
+        out[other] = acc * len_o[other]
     return out

@@ -83,7 +83,7 @@ _G2 = np.array([0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)])
 _RadialFn = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray, np.ndarray]]
 
 
-def corrected_midpoint(s1, s3, s5, ps, ls2, po=None, lo2=None):
+def corrected_midpoint(s1, s3, s5, ps, len_s2, po=None, len_o2=None):
     """Corrected mid-point rule from radial sums.
 
     Parameters
@@ -93,9 +93,9 @@ def corrected_midpoint(s1, s3, s5, ps, ls2, po=None, lo2=None):
         the mid points (plus the regularising radius). [ohm*m/m^p]
     ps : array_like
         Offset of the mid points along the source segment. [m]
-    ls2 : array_like
+    len_s2 : array_like
         Squared source length. [m^2]
-    po, lo2 : array_like, optional
+    po, len_o2 : array_like, optional
         The same for the observer segment; omitted for a point observer.
 
     Returns
@@ -111,10 +111,10 @@ def corrected_midpoint(s1, s3, s5, ps, ls2, po=None, lo2=None):
     segment lengths and 2e-7 at 25 against the closed forms
     (tests/test_kernels.py).
     """
-    src = (ls2 / 24.0) * (3.0 * ps * ps * s5 - s3)
+    src = (len_s2 / 24.0) * (3.0 * ps * ps * s5 - s3)
     if po is None:
         return s1 + src
-    return s1 + ((lo2 / 24.0) * (3.0 * po * po * s5 - s3) + src)
+    return s1 + ((len_o2 / 24.0) * (3.0 * po * po * s5 - s3) + src)
 
 
 def _dot(u: np.ndarray, v: np.ndarray) -> np.ndarray:
@@ -146,12 +146,16 @@ def far_pair_integral(do: np.ndarray, ds: np.ndarray, dm: np.ndarray, radius2: n
     centres.
     """
     r2 = _dot(dm, dm) + radius2
-    lo2 = _dot(do, do)
-    ls2 = _dot(ds, ds)
-    lo, ls = np.sqrt(lo2), np.sqrt(ls2)
+    len_o2 = _dot(do, do)
+    len_s2 = _dot(ds, ds)
+    len_o, len_s = np.sqrt(len_o2), np.sqrt(len_s2)
     inv = 1.0 / np.sqrt(r2)
     inv3 = inv / r2
-    return corrected_midpoint(inv, inv3, inv3 / r2, _dot(dm, ds) / ls, ls2, _dot(dm, do) / lo, lo2) * lo * ls
+    return (
+        corrected_midpoint(inv, inv3, inv3 / r2, _dot(dm, ds) / len_s, len_s2, _dot(dm, do) / len_o, len_o2)
+        * len_o
+        * len_s
+    )
 
 
 def pair_integral(
@@ -315,7 +319,7 @@ class Operator:
         n = len(seg)
         gid = np.full(n, -1, dtype=np.int64)
         hor = np.flatnonzero(self.horizontal)
-        if not any(self._has_rest(lo, ls) for lo, ls in self.layer_pairs):
+        if not any(self._has_rest(layer_o, layer_s) for layer_o, layer_s in self.layer_pairs):
             gid[hor] = seg.layer[hor]
             return _FastGroups(gid, {})
         if hor.size == 0:
@@ -341,7 +345,7 @@ class Operator:
 
     # -- matrix entries ------------------------------------------------------------------
 
-    def _far_sums(self, dx, dy, zo, zs, eo, es, lo_len, ls_len, r2, lay_o, lay_s, go, gs, fast) -> np.ndarray:
+    def _far_sums(self, dx, dy, zo, zs, eo, es, len_o, len_s, r2, layers_o, layers_s, go, gs, fast) -> np.ndarray:
         """Far-rule entries for a block (every element; only those in ``fast`` are meaningful)."""
         d2 = dx * dx + dy * dy
         po = dx * eo[0] + dy * eo[1]
@@ -349,11 +353,15 @@ class Operator:
         s1 = np.zeros(d2.shape)
         s3 = np.zeros(d2.shape)
         s5 = np.zeros(d2.shape)
-        present = [(lo, ls) for (lo, ls) in self.layer_pairs if np.any(lay_o == lo) and np.any(lay_s == ls)]
-        for lo, ls in present:
-            m = (lay_o == lo) & (lay_s == ls) if len(present) > 1 else None
+        present = [
+            (layer_o, layer_s)
+            for (layer_o, layer_s) in self.layer_pairs
+            if np.any(layers_o == layer_o) and np.any(layers_s == layer_s)
+        ]
+        for layer_o, layer_s in present:
+            m = (layers_o == layer_o) & (layers_s == layer_s) if len(present) > 1 else None
             t1, t3, t5 = _leading_sums(
-                self.greens.leading_images(lo, ls), d2, lambda img: zo - img.map_depth(zs), r2, m
+                self.greens.leading_images(layer_o, layer_s), d2, lambda img: zo - img.map_depth(zs), r2, m
             )
             s1 += t1
             s3 += t3
@@ -369,7 +377,7 @@ class Operator:
                 s1[sel] += t1
                 s3[sel] += t3
                 s5[sel] += t5
-        return corrected_midpoint(s1, s3, s5, ps, ls_len * ls_len, po, lo_len * lo_len) / (4.0 * np.pi)
+        return corrected_midpoint(s1, s3, s5, ps, len_s * len_s, po, len_o * len_o) / (4.0 * np.pi)
 
     def _far_mask(self, d2, size):
         return d2 >= (PAIR_FAR_RATIO * size) ** 2 * FAR_MARGIN
@@ -476,24 +484,26 @@ class Operator:
         seg = self.segments
         out = np.zeros(ii.size)
         a, b, rad, length, layer = seg.a, seg.b, seg.radius, self.length, seg.layer
-        for lo, ls in self.layer_pairs:
-            sel = np.flatnonzero((layer[ii] == lo) & (layer[jj] == ls))
+        for layer_o, layer_s in self.layer_pairs:
+            sel = np.flatnonzero((layer[ii] == layer_o) & (layer[jj] == layer_s))
             if sel.size == 0:
                 continue
             oi, sj = ii[sel], jj[sel]
             oa, ob = a[oi], b[oi]
             r2 = rad[oi] * rad[sj]
-            acc = _image_sum(self.greens.images(lo, ls), a[sj], b[sj], partial(pair_integral, oa, ob, radius2=r2))
-            if self.greens.tails(lo, ls):
-                acc += self._tail_pairs(lo, ls, oi, sj)
+            acc = _image_sum(
+                self.greens.images(layer_o, layer_s), a[sj], b[sj], partial(pair_integral, oa, ob, radius2=r2)
+            )
+            if self.greens.tails(layer_o, layer_s):
+                acc += self._tail_pairs(layer_o, layer_s, oi, sj)
             out[sel] = acc / (4.0 * np.pi * length[oi] * length[sj])
         return out
 
-    def _tail_pairs(self, lo: int, ls: int, oi: np.ndarray, sj: np.ndarray) -> np.ndarray:
+    def _tail_pairs(self, layer_o: int, layer_s: int, oi: np.ndarray, sj: np.ndarray) -> np.ndarray:
         """Double integral of the image tails over segment pairs (times the weights)."""
         seg, g = self.segments, self.greens
         a, b, length = seg.a, seg.b, self.length
-        lo_len, ls_len = length[oi], length[sj]
+        len_o, len_s = length[oi], length[sj]
         out = np.zeros(oi.size)
         rest = np.ones(oi.size, dtype=bool)
         both = np.flatnonzero(self.horizontal[oi] & self.horizontal[sj])
@@ -502,19 +512,19 @@ class Operator:
             combos, which = np.unique(depths, axis=0, return_inverse=True)
             which = which.reshape(-1)
             for c, (zo, zs) in enumerate(combos):
-                table = g.radial_sums(lo, ls, float(zo), float(zs), "tails")
+                table = g.radial_sums(layer_o, layer_s, float(zo), float(zs), "tails")
                 if table is None:
                     continue
                 m = np.zeros(oi.size, dtype=bool)
                 m[both[which == c]] = True
                 mo, ms = 0.5 * (a[oi[m]] + b[oi[m]]), 0.5 * (a[sj[m]] + b[sj[m]])
                 dx, dy = mo[:, 0] - ms[:, 0], mo[:, 1] - ms[:, 1]
-                eo = (b[oi[m]] - a[oi[m]]) / lo_len[m, None]
-                es = (b[sj[m]] - a[sj[m]]) / ls_len[m, None]
+                eo = (b[oi[m]] - a[oi[m]]) / len_o[m, None]
+                es = (b[sj[m]] - a[sj[m]]) / len_s[m, None]
                 po = dx * eo[:, 0] + dy * eo[:, 1]
                 ps = dx * es[:, 0] + dy * es[:, 1]
                 s1, s3, s5 = table(np.hypot(dx, dy))
-                out[m] = corrected_midpoint(s1, s3, s5, ps, ls_len[m] ** 2, po, lo_len[m] ** 2) * lo_len[m] * ls_len[m]
+                out[m] = corrected_midpoint(s1, s3, s5, ps, len_s[m] ** 2, po, len_o[m] ** 2) * len_o[m] * len_s[m]
                 rest &= ~m
         if rest.any():
             ri, rj = oi[rest], sj[rest]
@@ -525,7 +535,7 @@ class Operator:
                 for ts in _G2:
                     ps3 = a[rj] + ts * ds
                     d = np.hypot(po3[:, 0] - ps3[:, 0], po3[:, 1] - ps3[:, 1])
-                    for tail in g.tails(lo, ls):
+                    for tail in g.tails(layer_o, layer_s):
                         tsum += tail.weight_ohm_m * g.tail_sum(d, tail.argument(po3[:, 2], ps3[:, 2]))
             out[rest] = 0.25 * tsum * length[ri] * length[rj]
         return out
@@ -565,29 +575,29 @@ class Operator:
         src = np.arange(len(seg)) if sources is None else np.asarray(sources, dtype=np.int64)
         q_all = np.asarray(currents, dtype=float)
         out = np.zeros(m)
-        for ls in np.unique(seg.layer[src]).tolist():
-            pick = np.flatnonzero(seg.layer[src] == ls)
+        for layer_s in np.unique(seg.layer[src]).tolist():
+            pick = np.flatnonzero(seg.layer[src] == layer_s)
             sel = src[pick]
             q = q_all[pick]
             rows = max(1, POINT_CHUNK_PAIRS // sel.size)
-            far_ok, groups = self._point_groups(sel, ls)
+            far_ok, groups = self._point_groups(sel, layer_s)
             for p0 in range(0, m, rows):
                 pp = pts[p0 : p0 + rows]
-                out[p0 : p0 + rows] += self._point_block(pp, sel, ls, far_ok, groups) @ q
+                out[p0 : p0 + rows] += self._point_block(pp, sel, layer_s, far_ok, groups) @ q
         return out
 
-    def _point_groups(self, sel: np.ndarray, ls: int) -> tuple[np.ndarray, list]:
+    def _point_groups(self, sel: np.ndarray, layer_s: int) -> tuple[np.ndarray, list]:
         """Sources of ``sel`` that take the far rule from surface points, and their radial sums."""
         ok = self.horizontal[sel].copy()
         groups: list[tuple[_RadialFn, np.ndarray]] = []
-        if self._has_rest(SURFACE, ls):
+        if self._has_rest(SURFACE, layer_s):
             z = self.segments.a[sel, 2]
             uz, which = np.unique(z, return_inverse=True)
             which = which.reshape(-1)
             has = np.zeros(uz.size, dtype=bool)
             tables = []
             for k, zk in enumerate(uz.tolist()):
-                t = self.greens.radial_sums(SURFACE, ls, 0.0, zk, "far")
+                t = self.greens.radial_sums(SURFACE, layer_s, 0.0, zk, "far")
                 has[k] = t is not None
                 tables.append(t)
             ok &= has[which]
@@ -597,7 +607,7 @@ class Operator:
                     groups.append((tables[k], cols))
         return ok, groups
 
-    def _point_block(self, pp: np.ndarray, sel: np.ndarray, ls: int, far_ok: np.ndarray, groups) -> np.ndarray:
+    def _point_block(self, pp: np.ndarray, sel: np.ndarray, layer_s: int, far_ok: np.ndarray, groups) -> np.ndarray:
         """Potential per unit current at surface points ``pp`` of segments ``sel``, shape (len(pp), len(sel))."""
         seg = self.segments
         mid = self.mid[sel]
@@ -611,7 +621,7 @@ class Operator:
         ps = dx * e[None, :, 0] + dy * e[None, :, 1]
         zs = mid[:, 2]
         r2 = (seg.radius[sel] ** 2)[None, :]
-        leading = self.greens.leading_images(SURFACE, ls)
+        leading = self.greens.leading_images(SURFACE, layer_s)
         s1, s3, s5 = _leading_sums(leading, d2, lambda img: img.map_depth(zs)[None, :], r2)
         for table, cols in groups:
             use = ~general[:, cols]
@@ -627,20 +637,20 @@ class Operator:
             pi, sj = np.nonzero(general)
             p3 = np.zeros((pi.size, 3))
             p3[:, :2] = pp[pi]
-            vals[pi, sj] = self._point_general(p3, sel[sj], ls)
+            vals[pi, sj] = self._point_general(p3, sel[sj], layer_s)
         return vals
 
-    def _point_general(self, p: np.ndarray, src: np.ndarray, ls: int) -> np.ndarray:
+    def _point_general(self, p: np.ndarray, src: np.ndarray, layer_s: int) -> np.ndarray:
         """Potential per unit current at surface points ``p`` (m, 3) of segments ``src``, image by image."""
         seg = self.segments
         a, b = seg.a[src], seg.b[src]
         r2 = seg.radius[src] ** 2
-        acc = _image_sum(self.greens.images(SURFACE, ls), a, b, partial(line_integral, p, radius2=r2))
-        if self.greens.tails(SURFACE, ls):
-            acc += self._point_tails(p, src, ls)
+        acc = _image_sum(self.greens.images(SURFACE, layer_s), a, b, partial(line_integral, p, radius2=r2))
+        if self.greens.tails(SURFACE, layer_s):
+            acc += self._point_tails(p, src, layer_s)
         return acc / (4.0 * np.pi * self.length[src])
 
-    def _point_tails(self, p: np.ndarray, src: np.ndarray, ls: int) -> np.ndarray:
+    def _point_tails(self, p: np.ndarray, src: np.ndarray, layer_s: int) -> np.ndarray:
         """Integral of the image tails over source segments seen from surface points (times weights)."""
         seg, g = self.segments, self.greens
         a, b = seg.a[src], seg.b[src]
@@ -652,7 +662,7 @@ class Operator:
             uz, which = np.unique(a[hor, 2], return_inverse=True)
             which = which.reshape(-1)
             for k, zk in enumerate(uz.tolist()):
-                table = g.radial_sums(SURFACE, ls, 0.0, zk, "tails")
+                table = g.radial_sums(SURFACE, layer_s, 0.0, zk, "tails")
                 if table is None:
                     continue
                 m = np.zeros(src.size, dtype=bool)
@@ -671,7 +681,7 @@ class Operator:
             for ti, wi in zip(t, w, strict=True):
                 q = ar + ti * (br - ar)
                 d = np.hypot(pr[:, 0] - q[:, 0], pr[:, 1] - q[:, 1])
-                for tail in g.tails(SURFACE, ls):
+                for tail in g.tails(SURFACE, layer_s):
                     tsum += wi * tail.weight_ohm_m * g.tail_sum(d, tail.argument(0.0, q[:, 2]))
             out[rest] = tsum * length[rest]
         return out

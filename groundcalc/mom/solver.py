@@ -41,8 +41,8 @@ class Solution:
         The segments solved for.
     resistance_ohm : float
         Grid resistance to remote earth. [ohm]
-    unit_currents_a : numpy.ndarray
-        Leakage current of each segment when the grid is at 1 V. [A/V]
+    currents_per_gpr : numpy.ndarray
+        Leakage current of each segment per volt of GPR (the grid at 1 V). [A/V]
     greens : Greens
         Soil Green's function used.
     method : str
@@ -53,7 +53,7 @@ class Solution:
 
     segments: Segments
     resistance_ohm: float
-    unit_currents_a: np.ndarray
+    currents_per_gpr: np.ndarray
     greens: Greens
     method: str
     notices: tuple[Notice, ...] = ()
@@ -65,11 +65,11 @@ class Solution:
 
     def leakage_a(self, gpr_v: float) -> np.ndarray:
         """Leakage current of each segment at the given GPR. [A]"""
-        return self.unit_currents_a * gpr_v
+        return self.currents_per_gpr * gpr_v
 
     def leakage_density_a_per_m(self, gpr_v: float) -> np.ndarray:
         """Leakage current per metre of each segment at the given GPR. [A/m]"""
-        return self.unit_currents_a * gpr_v / self.segments.length
+        return self.currents_per_gpr * gpr_v / self.segments.length
 
 
 #: Systems at least this large are solved by conjugate gradients first.

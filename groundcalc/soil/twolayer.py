@@ -111,9 +111,9 @@ def _families(soil: Soil) -> dict[tuple[int, int], list[_Family]]:
     }
 
 
-def _single_images(soil: Soil, lo: int, ls: int) -> tuple[list[Image], list[Image]]:
+def _single_images(soil: Soil, layer_o: int, layer_s: int) -> tuple[list[Image], list[Image]]:
     """Images that are not part of a family: (leading, other)."""
-    if (lo, ls) != (1, 1):
+    if (layer_o, layer_s) != (1, 1):
         return [], []
     rho2, h, k = soil.rho2_ohm_m, soil.thickness_m, soil.reflection_k
     other = [Image(-k * rho2, -1, 2.0 * h)] if k != 0.0 else []
@@ -149,12 +149,12 @@ def _split_family(fam: _Family, k: float, h: float, obox, sbox, near: float) -> 
     return images, tail, capped
 
 
-def _pair_kernel(soil: Soil, lo: int, ls: int, obox, sbox, near: float) -> tuple[_PairKernel, bool]:
+def _pair_kernel(soil: Soil, layer_o: int, layer_s: int, obox, sbox, near: float) -> tuple[_PairKernel, bool]:
     k, h = soil.reflection_k, soil.thickness_m
-    lead, other = _single_images(soil, lo, ls)
+    lead, other = _single_images(soil, layer_o, layer_s)
     tails: list[Tail] = []
     capped = False
-    for fam in _families(soil)[(lo, ls)]:
+    for fam in _families(soil)[(layer_o, layer_s)]:
         imgs, tail, cap = _split_family(fam, k, h, obox, sbox, near)
         capped |= cap
         if fam.direct and imgs and imgs[0].shift_m == 0.0:
@@ -305,20 +305,20 @@ def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> TwoL
     pairs: dict[tuple[int, int], _PairKernel] = {}
     boxes: dict[tuple[int, int], tuple] = {}
     capped = False
-    for lo, ls in itertools.product(sorted(ranges.layers), repeat=2):
-        obox, sbox = ranges.layers[lo], ranges.layers[ls]
-        pairs[(lo, ls)], cap = _pair_kernel(soil, lo, ls, obox, sbox, near)
-        boxes[(lo, ls)] = (obox, sbox)
+    for layer_o, layer_s in itertools.product(sorted(ranges.layers), repeat=2):
+        obox, sbox = ranges.layers[layer_o], ranges.layers[layer_s]
+        pairs[(layer_o, layer_s)], cap = _pair_kernel(soil, layer_o, layer_s, obox, sbox, near)
+        boxes[(layer_o, layer_s)] = (obox, sbox)
         capped |= cap
     surface: dict[int, _PairKernel] = {}
-    for ls in sorted(ranges.layers):
-        kern, cap = _pair_kernel(soil, 0, ls, surface_box, ranges.layers[ls], near)
-        surface[ls] = _merge_surface(kern)
-        boxes[("s", ls)] = (surface_box, ranges.layers[ls])
+    for layer_s in sorted(ranges.layers):
+        kern, cap = _pair_kernel(soil, 0, layer_s, surface_box, ranges.layers[layer_s], near)
+        surface[layer_s] = _merge_surface(kern)
+        boxes[("s", layer_s)] = (surface_box, ranges.layers[layer_s])
         capped |= cap
 
     v_lo, v_hi = math.inf, -math.inf
-    for key, kern in list(pairs.items()) + [(("s", ls), kern) for ls, kern in surface.items()]:
+    for key, kern in list(pairs.items()) + [(("s", layer_s), kern) for layer_s, kern in surface.items()]:
         lo_v, hi_v = _tail_range(kern, *boxes[key])
         v_lo, v_hi = min(v_lo, lo_v), max(v_hi, hi_v)
     d_hi = max(ranges.extent_m, 1.0) * 1.05
@@ -331,25 +331,25 @@ def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> TwoL
     n_groups = sum(len(g) for g in groups.values())
     d_far = 0.95 * ranges.far_m
     if n_groups <= MAX_DEPTH_GROUPS:
-        for lo, ls in pairs:
-            for zo in groups.get(lo, ()):
-                for zs in groups.get(ls, ()):
-                    rs = _radial(pairs[(lo, ls)], zo, zs, soil, d_far, d_hi, d_far, tol)
+        for layer_o, layer_s in pairs:
+            for zo in groups.get(layer_o, ()):
+                for zs in groups.get(layer_s, ()):
+                    rs = _radial(pairs[(layer_o, layer_s)], zo, zs, soil, d_far, d_hi, d_far, tol)
                     if rs is not None:
-                        radial[("far", lo, ls, zo, zs)] = rs
+                        radial[("far", layer_o, layer_s, zo, zs)] = rs
                         terms = max(terms, rs.terms)
-                    rs = _radial(pairs[(lo, ls)], zo, zs, soil, 0.0, d_near, near, tol, tails_only=True)
+                    rs = _radial(pairs[(layer_o, layer_s)], zo, zs, soil, 0.0, d_near, near, tol, tails_only=True)
                     if rs is not None:
-                        radial[("tails", lo, ls, zo, zs)] = rs
-        for ls, kern in surface.items():
-            for zs in groups.get(ls, ()):
+                        radial[("tails", layer_o, layer_s, zo, zs)] = rs
+        for layer_s, kern in surface.items():
+            for zs in groups.get(layer_s, ()):
                 rs = _radial(kern, 0.0, zs, soil, d_far, d_hi, d_far, tol)
                 if rs is not None:
-                    radial[("far", SURFACE, ls, 0.0, zs)] = rs
+                    radial[("far", SURFACE, layer_s, 0.0, zs)] = rs
                     terms = max(terms, rs.terms)
                 rs = _radial(kern, 0.0, zs, soil, 0.0, d_near, near, tol, tails_only=True)
                 if rs is not None:
-                    radial[("tails", SURFACE, ls, 0.0, zs)] = rs
+                    radial[("tails", SURFACE, layer_s, 0.0, zs)] = rs
     explicit = max(len(p.explicit) for p in pairs.values())
     notes = [
         f"Two-layer soil, K = {k:+.4f}: image series summed until the omitted terms are below "

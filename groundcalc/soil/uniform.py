@@ -45,7 +45,7 @@ class UniformGreens:
         self._surface = (Image(2.0 * rho, 1, 0.0),)
 
     def layer_pairs(self) -> Iterable[tuple[int, int]]:
-        return [(lo, ls) for lo in (0, 1) for ls in (0, 1)]
+        return [(layer_o, layer_s) for layer_o in (0, 1) for layer_s in (0, 1)]
 
     def images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
         return self._surface if layer_o == SURFACE else self._buried

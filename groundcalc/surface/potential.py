@@ -65,7 +65,7 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
     line-source integrals per image and a Gauss rule on the image tails
     near them.
     """
-    return solution.operator.surface_potential(points_xy, solution.unit_currents_a * gpr_v)
+    return solution.operator.surface_potential(points_xy, solution.currents_per_gpr * gpr_v)
 
 
 @dataclass(frozen=True)
@@ -172,7 +172,7 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     sizes = np.bincount(group)
     out = np.zeros((ny, nx))
     direct = np.flatnonzero(sizes[group] < LATTICE_MIN_GROUP)
-    current = solution.unit_currents_a * gpr_v
+    current = solution.currents_per_gpr * gpr_v
     op = solution.operator
     for g in np.flatnonzero(sizes >= LATTICE_MIN_GROUP):
         idx = np.flatnonzero(group == g)
@@ -244,12 +244,12 @@ def build_raster(
     """
     seg = solution.segments
     pts = np.concatenate([seg.a[:, :2], seg.b[:, :2]])
-    lo = pts.min(axis=0) - margin_m
-    hi = pts.max(axis=0) + margin_m
-    nx = int(np.floor((hi[0] - lo[0]) / spacing_m + 1e-9)) + 1
-    ny = int(np.floor((hi[1] - lo[1]) / spacing_m + 1e-9)) + 1
-    x = lo[0] + spacing_m * np.arange(nx)
-    y = lo[1] + spacing_m * np.arange(ny)
+    low = pts.min(axis=0) - margin_m
+    high = pts.max(axis=0) + margin_m
+    nx = int(np.floor((high[0] - low[0]) / spacing_m + 1e-9)) + 1
+    ny = int(np.floor((high[1] - low[1]) / spacing_m + 1e-9)) + 1
+    x = low[0] + spacing_m * np.arange(nx)
+    y = low[1] + spacing_m * np.arange(ny)
     xx, yy = np.meshgrid(x, y)
     flat = np.column_stack([xx.ravel(), yy.ravel()])
     log.info("surface potential on %d x %d raster (%.2f m)", nx, ny, spacing_m)
@@ -376,10 +376,10 @@ def find_max_step(raster: Raster, potential: Callable[[np.ndarray], np.ndarray])
         return StepResult(raster_max, (0.0, 0.0), (0.0, 0.0), raster_max)
     p = _step_pair(best[:2], best[2])
     pot = potential(p)
-    hi, lo = (0, 1) if pot[0] >= pot[1] else (1, 0)
+    high, low = (0, 1) if pot[0] >= pot[1] else (1, 0)
     return StepResult(
         best_val,
-        (float(p[hi][0]), float(p[hi][1])),
-        (float(p[lo][0]), float(p[lo][1])),
+        (float(p[high][0]), float(p[high][1])),
+        (float(p[low][0]), float(p[low][1])),
         raster_max,
     )
