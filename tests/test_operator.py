@@ -30,9 +30,10 @@ def _wire_solution(soil, per_m=0.1):
 def test_surface_potential_far_outside_the_tables(k):
     # Points 50 m to 200 m from a 10 m wire, far beyond the range of the soil's tables: the surface
     # potential against scipy.integrate.quad over the wire of the point-source image series summed
-    # term by term (Sunde's two-layer series, E. D. Sunde, Earth Conduction Effects in Transmission
-    # Systems, 1968, sec. 2.5, as written in DESIGN.md / groundcalc.soil.twolayer). The series is
-    # summed to 1e-9 and the far rule errs by O((L/R)^4) < 1e-8 here: 1e-6 leaves room for both.
+    # term by term (Sunde's two-layer series: E. D. Sunde, Earth Conduction Effects in Transmission
+    # Systems, Dover 1968, sec. 2.5; G. F. Tagg, Earth Resistances, 1964, ch. 5; docs/references.md).
+    # The series is summed to 1e-9 and the far rule errs by O((L/R)^4) < 1e-8 here: 1e-6 leaves room
+    # for both.
     soil = k_soil(k, 2.0)
     sol = _wire_solution(soil)
     pts = np.array([[60.0, 0.0], [5.0, 50.0], [-200.0, 30.0]])

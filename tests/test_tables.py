@@ -14,7 +14,7 @@ def brute_sum(d, v, k, h, p, terms=20000):
 
 @pytest.mark.parametrize("k", [0.98, -0.98, 0.9, -0.5, 0.2])
 def test_series_truncation_meets_tolerance(k):
-    # Issue 4: the series must be summed until the omitted terms change the potential by less than
+    # The series must be summed until the omitted terms change the potential by less than
     # 1e-6 relative, for |K| up to 0.98. The bound in series_sums is |K|^N r_N^-p / (1 - |K|).
     rng = np.random.default_rng(0)
     d = rng.uniform(0, 200, 50)

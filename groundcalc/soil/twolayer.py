@@ -285,8 +285,9 @@ def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> TwoL
     ranges : DepthRanges
         Depth ranges per layer, horizontal segment depths and distances.
     tol : float
-        Relative truncation tolerance of every image series (the issue asks
-        for 1e-6; 1e-9 is used so the tables add no visible error).
+        Relative truncation tolerance of every image series (1e-6 would
+        already be invisible in the results; 1e-9 is used so that the tables
+        add no visible error either).
 
     Returns
     -------
