@@ -12,7 +12,7 @@ import pytest
 import scipy.linalg
 
 import groundcalc.mom.assembly as assembly
-import groundcalc.mom.integrals as kernels
+import groundcalc.mom.operator as operator
 import groundcalc.mom.solver as solver
 import groundcalc.surface.potential as surface
 from groundcalc.analysis import analyse
@@ -97,12 +97,11 @@ def test_speed_ups_against_plain_exact_pipeline(soil, seg_len, spacing, monkeypa
     fast = analyse(design)
     assert fast.geometry.solution.method.startswith("conjugate gradients")
     monkeypatch.undo()
-    # no pair counts as far: every matrix entry by the closed forms (the margin, not the ratio,
-    # so the two-layer image split, which also uses the ratio, is unchanged)
-    for mod in (kernels, assembly):
-        monkeypatch.setattr(mod, "FAR_MARGIN", 1e18)
+    # no pair counts as far: every matrix entry by the closed forms (the ratio of the pair rule
+    # only, so the two-layer image split, which uses FAR_RATIO, is unchanged)
+    monkeypatch.setattr(operator, "PAIR_FAR_RATIO", 1e9)
     if soil.model == "uniform":  # the plain two-layer surface is very slow: checked on its own below
-        monkeypatch.setattr(surface, "FAR_RATIO", 1e9)
+        monkeypatch.setattr(operator, "POINT_FAR_RATIO", 1e9)
     monkeypatch.setattr(assembly, "MAX_CLASSES", 0)
     monkeypatch.setattr(solver, "CG_MIN_SIZE", 10**9)
     plain = analyse(design)
@@ -122,7 +121,7 @@ def test_surface_far_rule_against_plain_evaluation(soil, monkeypatch):
     rng = np.random.default_rng(3)
     pts = np.column_stack([rng.uniform(-6, 30, 150), rng.uniform(-6, 24, 150)])
     fast = surface.surface_potential(pts, sol, 1.0)
-    monkeypatch.setattr(surface, "FAR_RATIO", 1e9)
+    monkeypatch.setattr(operator, "POINT_FAR_RATIO", 1e9)
     plain = surface.surface_potential(pts, sol, 1.0)
     assert np.max(np.abs(fast - plain)) < 1e-4
 

@@ -6,13 +6,12 @@ import pytest
 from scipy.integrate import dblquad, quad
 
 from groundcalc.mom.integrals import (
-    FAR_RATIO,
-    far_pair_integral,
     line_integral,
-    pair_integral,
+    near_pair_integral,
     parallel_pair_integral,
     perpendicular_pair_integral,
 )
+from groundcalc.mom.operator import FAR_MARGIN, FAR_RATIO, far_pair_integral, pair_integral
 
 
 def _num_pair(oa, ob, sa, sb, r2):
@@ -76,9 +75,12 @@ def test_line_integral_no_cancellation_close_to_the_axis():
     assert val == pytest.approx(2 * np.arcsinh(0.5 / d), rel=1e-12)
 
 
-def test_far_rule_error_is_bounded():
-    # Measured accuracy of the corrected mid-point rule against the closed forms at the
-    # switch-over distance: below 2e-5 relative for axis-aligned pairs in all orientations.
+@pytest.mark.parametrize("ratio,bound", [(FAR_RATIO, 2e-5), (25.0, 2e-7)])
+def test_far_rule_error_is_bounded(ratio, bound):
+    # The corrected mid-point rule (far rule) against the closed forms (near rule) for axis-aligned
+    # pairs in all orientations, just beyond the switch-over distance and at 25 lengths: relative
+    # error below 2e-5 and 2e-7. The closed forms are checked against scipy.integrate.dblquad above;
+    # a few of these pairs are checked against dblquad again here.
     rng = np.random.default_rng(7)
     n = 3000
     oa = np.zeros((n, 3))
@@ -87,16 +89,19 @@ def test_far_rule_error_is_bounded():
     u /= np.linalg.norm(u, axis=1)[:, None]
     e = np.eye(3)[rng.integers(0, 3, n)]
     ls = rng.choice([0.5, 1.0], n)
-    centre = np.array([0.5, 0, 0]) + u * FAR_RATIO
+    # the longer segment is 1 m long: mid points just beyond the switch-over distance
+    centre = np.array([0.5, 0, 0]) + u * ratio * np.sqrt(FAR_MARGIN) * (1 + 1e-9)
     sa, sb = centre - 0.5 * ls[:, None] * e, centre + 0.5 * ls[:, None] * e
     r2 = np.full(n, 1e-4)
-    exact = pair_integral(oa, ob, sa, sb, r2 * 0 + 1e-4)  # far branch at exactly FAR_RATIO
-    from groundcalc.mom.integrals import _near_pair
-
-    closed = _near_pair(oa, ob - oa, np.ones(n), sa, sb, sb - sa, ls, r2)
+    near = near_pair_integral(oa, ob, sa, sb, r2)
     far = far_pair_integral(ob - oa, sb - sa, 0.5 * (oa + ob) - centre, r2)
-    assert np.max(np.abs(far / closed - 1)) < 2e-5
-    assert np.max(np.abs(exact / closed - 1)) < 2e-5
+    chosen = pair_integral(oa, ob, sa, sb, r2)
+    assert np.max(np.abs(chosen / far - 1)) < 1e-13  # the far rule is the one in use there
+    err = np.abs(far / near - 1)
+    assert np.max(err) < bound
+    assert np.max(err) > 1e-3 * bound  # the two rules do differ: the comparison can fail
+    for k in range(3):
+        assert near[k] == pytest.approx(_num_pair(oa[k], ob[k], sa[k], sb[k], 1e-4), rel=1e-9)
 
 
 def test_oblique_pairs_match_quadrature():

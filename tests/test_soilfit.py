@@ -36,7 +36,8 @@ def test_apparent_resistivity_surface_pins_and_pin_depth():
 
 @pytest.mark.parametrize("model", [(100, 300, 6.1), (300, 100, 6.1), (50, 1000, 2.0), (800, 40, 1.5)])
 def test_fit_recovers_synthetic_model_within_2_percent(model):
-    # Issue 4: synthetic readings from the series are fitted back to rho1, rho2, H within 2 %.
+    # Synthetic readings from the two-layer Wenner series (IEEE Std 81; REFERENCES.md) are fitted
+    # back to rho1, rho2, H within 2 %.
     r1, r2, h = model
     fit = fit_soil(WennerReadings(tuple(SPACINGS), tuple(two_layer_wenner(SPACINGS, r1, r2, h))))
     assert fit.rho1_ohm_m == pytest.approx(r1, rel=0.02)

@@ -9,7 +9,7 @@ from groundcalc.geometry.footprint import compute_footprint
 from groundcalc.geometry.segments import segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
 from groundcalc.mom.solver import Solution, solve
-from groundcalc.soil.greens import uniform_greens
+from groundcalc.soil.uniform import uniform_greens
 from groundcalc.surface.potential import TouchArea, build_raster, find_max_step, find_max_touch, surface_potential
 
 from .conftest import make_design

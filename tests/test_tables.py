@@ -14,7 +14,7 @@ def brute_sum(d, v, k, h, p, terms=20000):
 
 @pytest.mark.parametrize("k", [0.98, -0.98, 0.9, -0.5, 0.2])
 def test_series_truncation_meets_tolerance(k):
-    # Issue 4: the series must be summed until the omitted terms change the potential by less than
+    # The series must be summed until the omitted terms change the potential by less than
     # 1e-6 relative, for |K| up to 0.98. The bound in series_sums is |K|^N r_N^-p / (1 - |K|).
     rng = np.random.default_rng(0)
     d = rng.uniform(0, 200, 50)
@@ -59,5 +59,7 @@ def test_radial_sums_interpolation_error(k):
     got = np.stack(rs(d))
     err = np.max(np.abs(got / ref - 1), axis=1)
     assert err[0] < 1e-7 and err[1] < 1e-7 and err[2] < 5e-7
-    # clamp mode never sums directly and matches inside the table
-    assert np.allclose(np.stack(rs(d, clamp=True)), got, rtol=1e-14)
+    # beyond the table the sums are evaluated term by term, not taken from the last node
+    far = np.array([450.0, 2000.0])
+    assert np.allclose(np.stack(rs(far)), rs.direct(far)[0], rtol=1e-14)
+    assert rs(far)[0][1] < 0.5 * rs(far)[0][0]

@@ -23,6 +23,7 @@ from ..errors import InputError
 from .dxf_import import CHORD_SAGITTA_M, PARTS, DrawingImport, LayerRule
 from .schema import FAULT, SOIL, Field, SheetSpec
 from .units import normalise_name
+from .workbook import DRAWING_SHEET, check_import_complete
 
 __all__ = [
     "DRAWING",
@@ -34,7 +35,7 @@ __all__ = [
 ]
 
 DRAWING = SheetSpec(
-    "Drawing",
+    DRAWING_SHEET,
     "table",
     (
         Field("Layer", "text", True, help="Layer name in the drawing (capitals do not matter)."),
@@ -247,49 +248,3 @@ def write_import_workbook(imp: DrawingImport, target: str | Path) -> None:
 
     data = deterministic_xlsx(build_import_workbook(imp), imp.saved)
     atomic_write(target, lambda tmp: tmp.write_bytes(data))
-
-
-def check_import_complete(wb) -> None:
-    """Refuse an imported workbook whose soil or fault data are still blank, naming every one.
-
-    Only workbooks with a ``Drawing`` sheet are checked; others get the
-    reader's usual messages.
-
-    Raises
-    ------
-    InputError
-        Listing each blank quantity with its sheet and cell.
-    """
-    from .workbook import _find_sheet, read_keyvalue, value
-
-    ws = _find_sheet(wb, DRAWING.name)
-    if ws is None:
-        return
-    missing = []
-    soil = read_keyvalue(wb, SOIL)
-    sf = {x.key: x for x in SOIL.fields}
-
-    def blank(cells, spec, key) -> None:
-        cell = cells.get(key)
-        if cell is None or cell.value is None or (isinstance(cell.value, str) and not cell.value.strip()):
-            where = f"cell B{cell.row}" if cell is not None else "a new row"
-            missing.append(f"{spec.name} '{spec.field(key).header()}' ({where})")
-
-    blank(soil, SOIL, "model")
-    model = None
-    if "model" in soil and soil["model"].value is not None and str(soil["model"].value).strip():
-        model = value(soil, sf["model"])
-    if model != "fitted":
-        blank(soil, SOIL, "upper resistivity")
-    if model == "two-layer":
-        blank(soil, SOIL, "upper thickness")
-        blank(soil, SOIL, "lower resistivity")
-    fault = read_keyvalue(wb, FAULT)
-    for key in ("fault current", "x/r ratio", "fault duration"):
-        blank(fault, FAULT, key)
-    if missing:
-        raise InputError(
-            "this workbook was imported from a drawing and its soil and fault data are not filled in yet: "
-            + "; ".join(missing),
-            fix="Fill in these values (marked in yellow), save the workbook and run again",
-        )

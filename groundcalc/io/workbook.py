@@ -937,6 +937,55 @@ def read_wenner(path: str | Path) -> WennerReadings:
     return readings
 
 
+#: Sheet that marks a workbook imported from a drawing (see groundcalc.io.dxf_workbook).
+DRAWING_SHEET = "Drawing"
+
+
+def check_import_complete(wb) -> None:
+    """Refuse an imported workbook whose soil or fault data are still blank, naming every one.
+
+    Only workbooks with a ``Drawing`` sheet (written by
+    :mod:`groundcalc.io.dxf_workbook`) are checked; others get the reader's
+    usual messages.
+
+    Raises
+    ------
+    InputError
+        Listing each blank quantity with its sheet and cell.
+    """
+    ws = _find_sheet(wb, DRAWING_SHEET)
+    if ws is None:
+        return
+    missing = []
+    soil = read_keyvalue(wb, SOIL)
+    sf = {x.key: x for x in SOIL.fields}
+
+    def blank(cells, spec, key) -> None:
+        cell = cells.get(key)
+        if cell is None or cell.value is None or (isinstance(cell.value, str) and not cell.value.strip()):
+            where = f"cell B{cell.row}" if cell is not None else "a new row"
+            missing.append(f"{spec.name} '{spec.field(key).header()}' ({where})")
+
+    blank(soil, SOIL, "model")
+    model = None
+    if "model" in soil and soil["model"].value is not None and str(soil["model"].value).strip():
+        model = value(soil, sf["model"])
+    if model != "fitted":
+        blank(soil, SOIL, "upper resistivity")
+    if model == "two-layer":
+        blank(soil, SOIL, "upper thickness")
+        blank(soil, SOIL, "lower resistivity")
+    fault = read_keyvalue(wb, FAULT)
+    for key in ("fault current", "x/r ratio", "fault duration"):
+        blank(fault, FAULT, key)
+    if missing:
+        raise InputError(
+            "this workbook was imported from a drawing and its soil and fault data are not filled in yet: "
+            + "; ".join(missing),
+            fix="Fill in these values (marked in yellow), save the workbook and run again",
+        )
+
+
 def read_design(path: str | Path) -> Design:
     """Read and validate a design workbook.
 
@@ -959,8 +1008,6 @@ def read_design(path: str | Path) -> Design:
     try:
         notices: list[Notice] = []
         check_formulas(path, wb, notices)
-        from .dxf_workbook import check_import_complete
-
         check_import_complete(wb)
         project = _read_project(wb)
         soil, surface = _read_soil(wb, notices)

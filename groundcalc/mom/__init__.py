@@ -1,1 +1,2 @@
-"""Method of moments: segment-pair integrals, matrix assembly and the linear solve."""
+"""Method of moments: segment integrals, the operator (near and far rules, matrix entries and
+point potentials), assembly and the linear solve."""

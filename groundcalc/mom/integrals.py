@@ -29,10 +29,9 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = [
-    "far_pair_integral",
     "gauss_legendre_unit",
     "line_integral",
-    "pair_integral",
+    "near_pair_integral",
     "parallel_pair_integral",
     "perpendicular_pair_integral",
 ]
@@ -197,12 +196,6 @@ def gauss_legendre_unit(n: int) -> tuple[np.ndarray, np.ndarray]:
     return _GAUSS_CACHE[n]
 
 
-#: Pairs whose mid-point distance exceeds this many segment lengths use the
-#: corrected mid-point rule instead of the closed forms.
-FAR_RATIO = 8.0
-#: Pairs within this relative margin of the far boundary count as near, so that
-#: round-off in coordinates never decides which rule a pair gets.
-FAR_MARGIN = 1.0 + 1e-6
 #: Gauss points on the observer for oblique pairs that are close together.
 OBLIQUE_POINTS = 16
 
@@ -211,52 +204,20 @@ def _dot(u: np.ndarray, v: np.ndarray) -> np.ndarray:
     return np.einsum("ij,ij->i", u, v)
 
 
-def far_pair_integral(do: np.ndarray, ds: np.ndarray, dm: np.ndarray, radius2: np.ndarray | float) -> np.ndarray:
-    """Double integral of ``g`` for a distant pair: corrected mid-point rule.
-
-    Parameters
-    ----------
-    do, ds : numpy.ndarray, shape (m, 3)
-        Observer and source direction vectors (end minus start). [m]
-    dm : numpy.ndarray, shape (m, 3)
-        Observer mid point minus source mid point. [m]
-    radius2 : array_like
-        Squared regularising radius. [m^2]
-
-    Returns
-    -------
-    numpy.ndarray
-        Approximate double integral. [m]
-
-    Notes
-    -----
-    Second-order Taylor expansion of ``1/R`` about the mid points: the
-    integral is ``Lo Ls / R [1 + (Lo^2 (3 cos_o^2 - 1) + Ls^2 (3 cos_s^2 - 1))
-    / (24 R^2)]`` with ``cos`` the angle between each segment and the line of
-    centres. The remainder is O((L/R)^4): measured relative error below 2e-5
-    at eight segment lengths and 2e-7 at 25 (tests/test_kernels.py).
-    """
-    r2 = _dot(dm, dm) + radius2
-    po = _dot(dm, do)
-    ps = _dot(dm, ds)
-    lo2 = _dot(do, do)
-    ls2 = _dot(ds, ds)
-    corr = (3.0 * po * po / r2 - lo2 + 3.0 * ps * ps / r2 - ls2) / (24.0 * r2)
-    return np.sqrt(lo2 * ls2 / r2) * (1.0 + corr)
-
-
-def pair_integral(
+def near_pair_integral(
     oa: np.ndarray,
     ob: np.ndarray,
     sa: np.ndarray,
     sb: np.ndarray,
     radius2: np.ndarray,
 ) -> np.ndarray:
-    """Double integral of ``g`` over observer and source segments, pairwise.
+    """Double integral of ``g`` over observer and source segments, pairwise, at any distance.
 
-    Closed forms for parallel and perpendicular pairs that are close, Gauss
-    points on the observer with the exact line integral for other close
-    pairs, and the corrected mid-point rule for distant pairs.
+    Closed forms for parallel and perpendicular pairs, Gauss points on the
+    observer with the exact line integral for other pairs. For pairs many
+    segment lengths apart the four-term closed forms lose digits to
+    cancellation; :mod:`groundcalc.mom.operator` uses the corrected mid-point
+    rule there.
 
     Parameters
     ----------
@@ -274,23 +235,12 @@ def pair_integral(
     """
     do = ob - oa
     ds = sb - sa
-    dm = 0.5 * ((oa + ob) - (sa + sb))
-    lo = np.sqrt(_dot(do, do))
-    ls = np.sqrt(_dot(ds, ds))
-    size = np.maximum(lo, ls)
-    far = _dot(dm, dm) >= (FAR_RATIO * size) ** 2 * FAR_MARGIN
-    out = np.empty(oa.shape[0])
-    if far.any():
-        out[far] = far_pair_integral(do[far], ds[far], dm[far], radius2[far])
-    near = np.flatnonzero(~far)
-    if near.size:
-        out[near] = _near_pair(oa[near], do[near], lo[near], sa[near], sb[near], ds[near], ls[near], radius2[near])
-    return out
+    return _near_pair(oa, do, np.sqrt(_dot(do, do)), sa, sb, ds, np.sqrt(_dot(ds, ds)), radius2)
 
 
-def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
-    eo = do / lo[:, None]
-    es = ds / ls[:, None]
+def _near_pair(oa, do, len_o, sa, sb, ds, len_s, radius2) -> np.ndarray:
+    eo = do / len_o[:, None]
+    es = ds / len_s[:, None]
     cos = _dot(eo, es)
     out = np.empty(oa.shape[0])
 
@@ -301,7 +251,7 @@ def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
         w = start - oa[par]
         s = _dot(w, eo[par])
         perp = w - s[:, None] * eo[par]
-        out[par] = parallel_pair_integral(s, lo[par], ls[par], _dot(perp, perp) + radius2[par])
+        out[par] = parallel_pair_integral(s, len_o[par], len_s[par], _dot(perp, perp) + radius2[par])
 
     orth = np.abs(cos) < 1e-10
     if orth.any():
@@ -312,7 +262,7 @@ def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
         x1 = _dot(w, e1)
         y1 = -_dot(w, e2)
         c = _dot(w, nrm)
-        out[orth] = perpendicular_pair_integral(x1, x1 + lo[orth], y1, y1 + ls[orth], c * c + radius2[orth])
+        out[orth] = perpendicular_pair_integral(x1, x1 + len_o[orth], y1, y1 + len_s[orth], c * c + radius2[orth])
 
     other = ~par & ~orth
     if other.any():
@@ -323,5 +273,5 @@ def _near_pair(oa, do, lo, sa, sb, ds, ls, radius2) -> np.ndarray:
         s0, s1, r2 = sa[other], sb[other], radius2[other]
         for ti, wi in zip(t, wts, strict=True):
             acc += wi * line_integral(a0 + ti * d0, s0, s1, r2)
-        out[other] = acc * lo[other]
+        out[other] = acc * len_o[other]
     return out

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import logging
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import scipy.linalg
@@ -23,6 +24,7 @@ from ..geometry.segments import Segments
 from ..model import Notice
 from ..soil.greens import Greens
 from .assembly import assemble
+from .operator import Operator
 
 __all__ = ["Solution", "assemble", "solve"]
 
@@ -39,8 +41,8 @@ class Solution:
         The segments solved for.
     resistance_ohm : float
         Grid resistance to remote earth. [ohm]
-    unit_currents_a : numpy.ndarray
-        Leakage current of each segment when the grid is at 1 V. [A/V]
+    currents_per_gpr : numpy.ndarray
+        Leakage current of each segment per volt of GPR (the grid at 1 V). [A/V]
     greens : Greens
         Soil Green's function used.
     method : str
@@ -51,18 +53,23 @@ class Solution:
 
     segments: Segments
     resistance_ohm: float
-    unit_currents_a: np.ndarray
+    currents_per_gpr: np.ndarray
     greens: Greens
     method: str
     notices: tuple[Notice, ...] = ()
 
+    @cached_property
+    def operator(self) -> Operator:
+        """The operator of these segments and soil, for potentials at points (made once)."""
+        return Operator(self.segments, self.greens)
+
     def leakage_a(self, gpr_v: float) -> np.ndarray:
         """Leakage current of each segment at the given GPR. [A]"""
-        return self.unit_currents_a * gpr_v
+        return self.currents_per_gpr * gpr_v
 
     def leakage_density_a_per_m(self, gpr_v: float) -> np.ndarray:
         """Leakage current per metre of each segment at the given GPR. [A/m]"""
-        return self.unit_currents_a * gpr_v / self.segments.length
+        return self.currents_per_gpr * gpr_v / self.segments.length
 
 
 #: Systems at least this large are solved by conjugate gradients first.

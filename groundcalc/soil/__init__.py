@@ -1,1 +1,2 @@
-"""Soil models: Green's functions (uniform, two-layer image series and their tables) and the Wenner fit."""
+"""Soil models: the Green's-function interface and its registry, uniform and two-layer soil
+(image series and their tables), and the Wenner fit."""

@@ -1,4 +1,4 @@
-"""Green's functions of layered soil as point images plus smooth tails.
+"""The Green's-function interface of a soil model: explicit images, radial sums and tails.
 
 The potential at observer point P = (x, y, z) of a point current I at
 Q = (x', y', z') in soil with an insulating surface at z = 0 (depth positive
@@ -10,28 +10,50 @@ down) is written as
   (ohm*m), sign ``s_k`` (+1 shifted copy, -1 mirrored copy) and shift
   ``t_k`` (m). Every image is moved in depth only, so the image of a straight
   segment is again a straight segment and the segment integrals of
-  :mod:`groundcalc.mom.integrals` apply term by term.
+  :mod:`groundcalc.mom.integrals` apply term by term. The first few
+  (*leading*) images are the ones a distant observer sums one by one.
 * **Tails**: what is left of an infinite image series after its explicit
   terms. ``T(d, v) = sum_{m>=0} K^m / sqrt(d^2 + (v + 2 m H)^2)`` with ``d``
   the horizontal distance and ``v = a z + b z' + c`` a linear function of the
   two depths. Tails are only formed from images that are far from every
   observer (``v`` is at least the near distance), so they are smooth and a
   low-order rule integrates them accurately.
+* **Radial sums**: for horizontal segments at fixed depths every image sits at
+  a fixed vertical offset, so ``S_p(d) = sum w / R^p`` (p = 1, 3, 5) over a
+  set of images and tails is a function of the horizontal distance alone. A
+  soil model may tabulate them; they give the corrected mid-point rule of
+  :mod:`groundcalc.mom.operator` without a loop over images.
 
-This module holds the data types and the uniform-soil images; the two-layer
-series are built in :mod:`groundcalc.soil.twolayer`.
+:class:`GreensFunction` is the protocol every soil model implements; the
+operator in :mod:`groundcalc.mom.operator` is its only user. How a model
+stores its images and tables (depth keys, dictionaries, image families) is
+private to it. :func:`groundcalc.soil.registry.greens_for` picks the
+implementation registered for a :class:`~groundcalc.model.Soil` model.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from dataclasses import dataclass, field
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass
+from typing import Literal, Protocol, runtime_checkable
 
 import numpy as np
 
-from ..model import Soil
+__all__ = [
+    "SURFACE",
+    "DepthRanges",
+    "Greens",
+    "GreensFunction",
+    "Image",
+    "RadialPart",
+    "Tail",
+]
 
-__all__ = ["Greens", "Image", "PairKernel", "Tail", "uniform_greens"]
+#: Observer "layer" of points on the earth surface (z = 0); buried observers use 0 (upper) and 1.
+SURFACE = -1
+
+#: Which images a radial sum covers: every image but the leading ones, or the tails only.
+RadialPart = Literal["far", "tails"]
 
 
 @dataclass(frozen=True)
@@ -66,7 +88,7 @@ class Tail:
     weight_ohm_m : float
         Weight of the first omitted image. [ohm*m]
     slope_o, slope_s : float
-        Coefficients of observer and source depth in ``v`` (each +1 or -1).
+        Coefficients of observer and source depth in ``v`` (each +1, -1 or 0).
     offset_m : float
         Constant part of ``v``. [m]
     """
@@ -82,119 +104,92 @@ class Tail:
 
 
 @dataclass(frozen=True)
-class PairKernel:
-    """Images for one (observer layer, source layer) pair.
+class DepthRanges:
+    """What a Green's function must serve: depth ranges and distances.
 
     Attributes
     ----------
-    explicit : tuple of Image
-        Images integrated exactly; the first ``direct`` of them are the
-        leading (n = 0) images, which the fast far-field path evaluates
-        directly. The rest are handled by radial tables there.
-    tails : tuple of Tail
-        Smooth remainders of the image series.
-    direct : int
-        Number of leading images in ``explicit``.
+    layers : dict
+        ``layer -> (z_min, z_max)`` of the segment points in that layer. [m]
+    horizontal_depths : dict
+        ``layer -> tuple of depths`` of horizontal segments. [m]
+    near_m : float
+        Images closer than this to an observer are explicit. [m]
+    far_m : float
+        Smallest horizontal distance of the far-field path. [m]
+    extent_m : float
+        Largest horizontal distance tables need to cover (grid plus surface
+        margin); beyond it a model evaluates its series directly. [m]
     """
 
-    explicit: tuple[Image, ...]
-    tails: tuple[Tail, ...] = ()
-    direct: int = 0
-
-    @property
-    def direct_images(self) -> tuple[Image, ...]:
-        """The leading images."""
-        return self.explicit[: self.direct]
-
-    @property
-    def other_images(self) -> tuple[Image, ...]:
-        """Explicit images after the leading ones."""
-        return self.explicit[self.direct :]
+    layers: dict[int, tuple[float, float]]
+    horizontal_depths: dict[int, tuple[float, ...]]
+    near_m: float
+    far_m: float
+    extent_m: float
 
 
-@dataclass(frozen=True)
-class Greens:
-    """Green's function of a soil model, ready for assembly and surface evaluation.
+@runtime_checkable
+class GreensFunction(Protocol):
+    """Green's function of a soil model, prepared for one set of segments.
+
+    Layers are labelled 0 (upper, or the only layer) and 1 (lower); the
+    observer layer :data:`SURFACE` stands for points on the earth surface,
+    where images that coincide are merged.
 
     Attributes
     ----------
-    pairs : dict
-        ``(observer_layer, source_layer) -> PairKernel`` for observers on
-        buried segments; layers are 0 (upper, or the only layer) and 1.
-    surface : dict
-        ``source_layer -> PairKernel`` for observers on the earth surface
-        (z = 0); images that coincide there are merged.
     description : str
-        How the series was built, for the report.
+        How the function was built, for the report.
     terms : int
-        Largest number of image terms summed for any potential (explicit
-        images plus tail terms up to the tolerance).
+        Largest number of image terms summed for any potential.
     explicit_terms : int
         Largest number of explicit images of any layer pair.
-    tail_function : callable or None
-        ``T(d, v)`` evaluator (vectorised), ``None`` without tails.
-    radial_far : dict or None
-        ``(lo, ls, z_o, z_s) -> RadialSums``: sums over the non-leading
-        images for horizontal segments at fixed depths (keys from
-        :func:`groundcalc.soil.twolayer.depth_key`), used for distant pairs;
-        ``None`` for uniform soil.
-    radial_surface : dict or None
-        ``(ls, z_s) -> RadialSums``: the same for surface observers.
-    radial_near, radial_surface_near : dict or None
-        The same over the tails only, for near pairs (the explicit images
-        are integrated exactly there).
     tolerance : float
-        Relative truncation tolerance of the image series.
+        Relative truncation tolerance of the image series (0 when exact).
     notes : tuple of str
         Plain-language remarks for the report.
     """
 
-    pairs: dict[tuple[int, int], PairKernel]
-    surface: dict[int, PairKernel]
     description: str
     terms: int
     explicit_terms: int
-    tail_function: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None
-    radial_far: dict | None = None
-    radial_surface: dict | None = None
-    radial_near: dict | None = None
-    radial_surface_near: dict | None = None
-    tolerance: float = 0.0
-    notes: tuple[str, ...] = field(default=())
+    tolerance: float
+    notes: tuple[str, ...]
 
-    @property
-    def layered(self) -> bool:
-        """True when any image series needs tables (two-layer soil)."""
-        return self.radial_far is not None or self.tail_function is not None
+    def layer_pairs(self) -> Iterable[tuple[int, int]]:
+        """``(observer layer, source layer)`` pairs of buried segments that have images."""
+        ...
+
+    def images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
+        """Every explicit image, the leading ones first."""
+        ...
+
+    def leading_images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
+        """The leading images (summed one by one for distant pairs)."""
+        ...
+
+    def tails(self, layer_o: int, layer_s: int) -> tuple[Tail, ...]:
+        """Smooth remainders of the image series after the explicit images."""
+        ...
+
+    def tail_sum(self, d: np.ndarray, v: np.ndarray) -> np.ndarray:
+        """``T(d, v)`` at horizontal distances ``d`` and arguments ``v`` (same shape). [1/m]"""
+        ...
+
+    def radial_sums(
+        self, layer_o: int, layer_s: int, z_o: float, z_s: float, part: RadialPart
+    ) -> Callable[[np.ndarray], tuple[np.ndarray, np.ndarray, np.ndarray]] | None:
+        """``d -> (S1, S3, S5)`` for horizontal segments at depths ``z_o``, ``z_s``, if tabulated.
+
+        ``part`` ``"far"`` covers every image but the leading ones and the
+        tails; ``"tails"`` the tails only. ``None`` when the model has no
+        such sums for these depths (callers then integrate images and tails
+        one by one). The sums are right at every distance: a table evaluates
+        its series directly outside its range. [ohm*m/m^p]
+        """
+        ...
 
 
-def uniform_greens(soil: Soil) -> Greens:
-    """Images of a uniform half-space with an insulating surface.
-
-    Parameters
-    ----------
-    soil : Soil
-        Soil model; only ``rho1_ohm_m`` is used.
-
-    Returns
-    -------
-    Greens
-        The source itself and its mirror image in the surface, both with
-        weight rho; on the surface the two coincide (weight 2 rho).
-
-    References
-    ----------
-    Method of images for a half-space; e.g. E. D. Sunde, *Earth Conduction
-    Effects in Transmission Systems*, Dover, 1968, ch. 2.
-    """
-    rho = soil.rho1_ohm_m
-    terms = PairKernel((Image(rho, 1, 0.0), Image(rho, -1, 0.0)), (), 2)
-    on_surface = PairKernel((Image(2.0 * rho, 1, 0.0),), (), 1)
-    # the same kernel for every layer label, so segments split at a depth still see uniform soil
-    return Greens(
-        pairs={(lo, ls): terms for lo in (0, 1) for ls in (0, 1)},
-        surface={0: on_surface, 1: on_surface},
-        description="uniform soil: source and surface image",
-        terms=2,
-        explicit_terms=2,
-    )
+#: Type name used across the package for any Green's function.
+Greens = GreensFunction

@@ -126,7 +126,7 @@ class RadialSums:
     vertical offset, so ``S_p(d) = sum_k w_k (d^2 + dz_k^2)^(-p/2)`` for
     p = 1, 3, 5 are functions of the horizontal distance ``d`` alone. They
     give the corrected mid-point rule for a segment pair (see
-    :func:`groundcalc.mom.assembly.far_horizontal`).
+    :func:`groundcalc.mom.operator.corrected_midpoint`).
 
     Parameters
     ----------
@@ -209,19 +209,15 @@ class RadialSums:
             terms = max(terms, len(pr.image_weights) + t)
         return out, terms
 
-    def __call__(self, d: np.ndarray, clamp: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    def __call__(self, d: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """``(S1, S3, S5)`` at horizontal distances ``d`` (any shape). [ohm*m/m^p]
 
-        Points outside the table are summed directly, unless ``clamp`` is set:
-        then they get the value at the nearest end of the table (for callers
-        that discard those values).
+        Points outside the table are summed directly (never extrapolated).
         """
         d = np.asarray(d, dtype=float)
         flat = d.ravel()
         x = np.arcsinh(flat / self.scale)
         t = (x - self.x0) / self.step
-        if clamp:
-            t = np.clip(t, 0.0, self.f.shape[1] - 1)
         inside = (t >= 0.0) & (t <= self.f.shape[1] - 1)
         i = np.clip(np.floor(t).astype(np.int64), 0, self.f.shape[1] - 2)
         s = t - i

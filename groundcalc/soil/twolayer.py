@@ -38,13 +38,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..model import Soil
-from .greens import Greens, Image, PairKernel, Tail
+from .greens import SURFACE, DepthRanges, Image, RadialPart, Tail
 from .tables import RadialSums, TailTable, series_sums
 
 __all__ = [
-    "DepthRanges",
     "MAX_EXPLICIT",
-    "depth_key",
+    "TwoLayerGreens",
     "point_potential",
     "two_layer_greens",
 ]
@@ -55,10 +54,31 @@ MAX_EXPLICIT = 128
 MAX_DEPTH_GROUPS = 6
 
 
-def depth_key(z):
-    """Depth rounded to a nanometre for use as a table key (scalar or array). [m]"""
-    r = np.round(np.asarray(z, dtype=float), 9)
-    return float(r) if r.ndim == 0 else r
+def _depth_key(z: float) -> float:
+    """Depth rounded to a nanometre for use as a table key. [m]"""
+    return float(np.round(float(z), 9))
+
+
+@dataclass(frozen=True)
+class _PairKernel:
+    """Images for one (observer layer, source layer) pair.
+
+    ``explicit`` are integrated exactly; the first ``direct`` of them are the
+    leading (n = 0) images, which distant pairs sum one by one; the rest are
+    in the radial tables there. ``tails`` are the smooth remainders.
+    """
+
+    explicit: tuple[Image, ...]
+    tails: tuple[Tail, ...] = ()
+    direct: int = 0
+
+    @property
+    def direct_images(self) -> tuple[Image, ...]:
+        return self.explicit[: self.direct]
+
+    @property
+    def other_images(self) -> tuple[Image, ...]:
+        return self.explicit[self.direct :]
 
 
 @dataclass(frozen=True)
@@ -70,31 +90,6 @@ class _Family:
     step: float
     n_start: int
     direct: bool  # the n = n_start image is a leading image
-
-
-@dataclass(frozen=True)
-class DepthRanges:
-    """What the series must serve: depth ranges and distances.
-
-    Attributes
-    ----------
-    layers : dict
-        ``layer -> (z_min, z_max)`` of the segment points in that layer. [m]
-    horizontal_depths : dict
-        ``layer -> tuple of depths`` of horizontal segments. [m]
-    near_m : float
-        Images closer than this to an observer are explicit. [m]
-    far_m : float
-        Smallest horizontal distance of the far-field path. [m]
-    extent_m : float
-        Largest horizontal distance needed (grid plus surface margin). [m]
-    """
-
-    layers: dict[int, tuple[float, float]]
-    horizontal_depths: dict[int, tuple[float, ...]]
-    near_m: float
-    far_m: float
-    extent_m: float
 
 
 def _families(soil: Soil) -> dict[tuple[int, int], list[_Family]]:
@@ -116,9 +111,9 @@ def _families(soil: Soil) -> dict[tuple[int, int], list[_Family]]:
     }
 
 
-def _single_images(soil: Soil, lo: int, ls: int) -> tuple[list[Image], list[Image]]:
+def _single_images(soil: Soil, layer_o: int, layer_s: int) -> tuple[list[Image], list[Image]]:
     """Images that are not part of a family: (leading, other)."""
-    if (lo, ls) != (1, 1):
+    if (layer_o, layer_s) != (1, 1):
         return [], []
     rho2, h, k = soil.rho2_ohm_m, soil.thickness_m, soil.reflection_k
     other = [Image(-k * rho2, -1, 2.0 * h)] if k != 0.0 else []
@@ -154,12 +149,12 @@ def _split_family(fam: _Family, k: float, h: float, obox, sbox, near: float) -> 
     return images, tail, capped
 
 
-def _pair_kernel(soil: Soil, lo: int, ls: int, obox, sbox, near: float) -> tuple[PairKernel, bool]:
+def _pair_kernel(soil: Soil, layer_o: int, layer_s: int, obox, sbox, near: float) -> tuple[_PairKernel, bool]:
     k, h = soil.reflection_k, soil.thickness_m
-    lead, other = _single_images(soil, lo, ls)
+    lead, other = _single_images(soil, layer_o, layer_s)
     tails: list[Tail] = []
     capped = False
-    for fam in _families(soil)[(lo, ls)]:
+    for fam in _families(soil)[(layer_o, layer_s)]:
         imgs, tail, cap = _split_family(fam, k, h, obox, sbox, near)
         capped |= cap
         if fam.direct and imgs and imgs[0].shift_m == 0.0:
@@ -169,10 +164,10 @@ def _pair_kernel(soil: Soil, lo: int, ls: int, obox, sbox, near: float) -> tuple
             other.extend(imgs)
         if tail is not None:
             tails.append(tail)
-    return PairKernel(tuple(lead + other), tuple(tails), len(lead)), capped
+    return _PairKernel(tuple(lead + other), tuple(tails), len(lead)), capped
 
 
-def _merge_surface(kernel: PairKernel) -> PairKernel:
+def _merge_surface(kernel: _PairKernel) -> _PairKernel:
     """Merge images that are equally far from an observer at z = 0."""
     lead: dict[float, float] = {}
     other: dict[float, float] = {}
@@ -185,20 +180,20 @@ def _merge_surface(kernel: PairKernel) -> PairKernel:
         key = (t.slope_s, round(t.offset_m, 12))
         tails[key] = tails.get(key, 0.0) + t.weight_ohm_m
     explicit = [Image(w, 1, e) for e, w in lead.items()] + [Image(w, 1, e) for e, w in other.items()]
-    return PairKernel(
+    return _PairKernel(
         tuple(explicit),
         tuple(Tail(w, 0.0, s, c) for (s, c), w in tails.items()),
         len(lead),
     )
 
 
-def _tail_range(kernel: PairKernel, obox, sbox) -> tuple[float, float]:
+def _tail_range(kernel: _PairKernel, obox, sbox) -> tuple[float, float]:
     vals = [t.argument(zo, zs) for t in kernel.tails for zo, zs in itertools.product(obox, sbox)]
     return (min(vals), max(vals)) if vals else (math.inf, -math.inf)
 
 
 def _radial(
-    kernel: PairKernel,
+    kernel: _PairKernel,
     zo: float,
     zs: float,
     soil: Soil,
@@ -225,7 +220,62 @@ def _radial(
     )
 
 
-def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> Greens:
+class TwoLayerGreens:
+    """Green's function of two-layer soil: explicit images, tables of radial sums, tails.
+
+    Built by :func:`two_layer_greens`; implements
+    :class:`groundcalc.soil.greens.GreensFunction`. The image families,
+    the tables and their depth keys are private.
+    """
+
+    def __init__(
+        self,
+        pairs: dict[tuple[int, int], _PairKernel],
+        surface: dict[int, _PairKernel],
+        description: str,
+        terms: int,
+        explicit_terms: int,
+        tail_table: TailTable | None,
+        radial: dict[tuple, RadialSums],
+        tolerance: float,
+        notes: tuple[str, ...],
+    ) -> None:
+        self._pairs = pairs
+        self._surface = surface
+        self._tail_table = tail_table
+        self._radial = radial  # (part, observer layer, source layer, z_o key, z_s key) -> RadialSums
+        self.description = description
+        self.terms = terms
+        self.explicit_terms = explicit_terms
+        self.tolerance = tolerance
+        self.notes = notes
+
+    def _kernel(self, layer_o: int, layer_s: int) -> _PairKernel:
+        kern = self._surface.get(layer_s) if layer_o == SURFACE else self._pairs.get((layer_o, layer_s))
+        return kern if kern is not None else _PairKernel(())
+
+    def layer_pairs(self) -> list[tuple[int, int]]:
+        return list(self._pairs)
+
+    def images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
+        return self._kernel(layer_o, layer_s).explicit
+
+    def leading_images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
+        return self._kernel(layer_o, layer_s).direct_images
+
+    def tails(self, layer_o: int, layer_s: int) -> tuple[Tail, ...]:
+        return self._kernel(layer_o, layer_s).tails
+
+    def tail_sum(self, d: np.ndarray, v: np.ndarray) -> np.ndarray:
+        if self._tail_table is None:
+            raise ValueError("this two-layer Green's function has no image tails")
+        return self._tail_table(d, v)
+
+    def radial_sums(self, layer_o: int, layer_s: int, z_o: float, z_s: float, part: RadialPart):
+        return self._radial.get((part, layer_o, layer_s, _depth_key(z_o), _depth_key(z_s)))
+
+
+def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> TwoLayerGreens:
     """Image series of a two-layer soil prepared for one set of segments.
 
     Parameters
@@ -235,12 +285,13 @@ def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> Gree
     ranges : DepthRanges
         Depth ranges per layer, horizontal segment depths and distances.
     tol : float
-        Relative truncation tolerance of every image series (the issue asks
-        for 1e-6; 1e-9 is used so the tables add no visible error).
+        Relative truncation tolerance of every image series (1e-6 would
+        already be invisible in the results; 1e-9 is used so that the tables
+        add no visible error either).
 
     Returns
     -------
-    Greens
+    TwoLayerGreens
 
     Notes
     -----
@@ -252,57 +303,54 @@ def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> Gree
     k = soil.reflection_k
     near = ranges.near_m
     surface_box = (0.0, 0.0)
-    pairs: dict[tuple[int, int], PairKernel] = {}
+    pairs: dict[tuple[int, int], _PairKernel] = {}
     boxes: dict[tuple[int, int], tuple] = {}
     capped = False
-    for lo, ls in itertools.product(sorted(ranges.layers), repeat=2):
-        obox, sbox = ranges.layers[lo], ranges.layers[ls]
-        pairs[(lo, ls)], cap = _pair_kernel(soil, lo, ls, obox, sbox, near)
-        boxes[(lo, ls)] = (obox, sbox)
+    for layer_o, layer_s in itertools.product(sorted(ranges.layers), repeat=2):
+        obox, sbox = ranges.layers[layer_o], ranges.layers[layer_s]
+        pairs[(layer_o, layer_s)], cap = _pair_kernel(soil, layer_o, layer_s, obox, sbox, near)
+        boxes[(layer_o, layer_s)] = (obox, sbox)
         capped |= cap
-    surface: dict[int, PairKernel] = {}
-    for ls in sorted(ranges.layers):
-        kern, cap = _pair_kernel(soil, 0, ls, surface_box, ranges.layers[ls], near)
-        surface[ls] = _merge_surface(kern)
-        boxes[("s", ls)] = (surface_box, ranges.layers[ls])
+    surface: dict[int, _PairKernel] = {}
+    for layer_s in sorted(ranges.layers):
+        kern, cap = _pair_kernel(soil, 0, layer_s, surface_box, ranges.layers[layer_s], near)
+        surface[layer_s] = _merge_surface(kern)
+        boxes[("s", layer_s)] = (surface_box, ranges.layers[layer_s])
         capped |= cap
 
     v_lo, v_hi = math.inf, -math.inf
-    for key, kern in list(pairs.items()) + [(("s", ls), kern) for ls, kern in surface.items()]:
+    for key, kern in list(pairs.items()) + [(("s", layer_s), kern) for layer_s, kern in surface.items()]:
         lo_v, hi_v = _tail_range(kern, *boxes[key])
         v_lo, v_hi = min(v_lo, lo_v), max(v_hi, hi_v)
     d_hi = max(ranges.extent_m, 1.0) * 1.05
     table = TailTable(k, h, v_lo, v_hi, d_hi, tol) if v_lo < math.inf else None
     terms = table.terms if table else 0
 
-    radial_far: dict = {}
-    radial_surface: dict = {}
-    radial_near: dict = {}
-    radial_surface_near: dict = {}
+    radial: dict[tuple, RadialSums] = {}
     d_near = 1.05 * near
-    groups = {lay: tuple(sorted({depth_key(z) for z in zs})) for lay, zs in ranges.horizontal_depths.items()}
+    groups = {lay: tuple(sorted({_depth_key(z) for z in zs})) for lay, zs in ranges.horizontal_depths.items()}
     n_groups = sum(len(g) for g in groups.values())
     d_far = 0.95 * ranges.far_m
     if n_groups <= MAX_DEPTH_GROUPS:
-        for lo, ls in pairs:
-            for zo in groups.get(lo, ()):
-                for zs in groups.get(ls, ()):
-                    rs = _radial(pairs[(lo, ls)], zo, zs, soil, d_far, d_hi, d_far, tol)
+        for layer_o, layer_s in pairs:
+            for zo in groups.get(layer_o, ()):
+                for zs in groups.get(layer_s, ()):
+                    rs = _radial(pairs[(layer_o, layer_s)], zo, zs, soil, d_far, d_hi, d_far, tol)
                     if rs is not None:
-                        radial_far[(lo, ls, zo, zs)] = rs
+                        radial[("far", layer_o, layer_s, zo, zs)] = rs
                         terms = max(terms, rs.terms)
-                    rs = _radial(pairs[(lo, ls)], zo, zs, soil, 0.0, d_near, near, tol, tails_only=True)
+                    rs = _radial(pairs[(layer_o, layer_s)], zo, zs, soil, 0.0, d_near, near, tol, tails_only=True)
                     if rs is not None:
-                        radial_near[(lo, ls, zo, zs)] = rs
-        for ls, kern in surface.items():
-            for zs in groups.get(ls, ()):
+                        radial[("tails", layer_o, layer_s, zo, zs)] = rs
+        for layer_s, kern in surface.items():
+            for zs in groups.get(layer_s, ()):
                 rs = _radial(kern, 0.0, zs, soil, d_far, d_hi, d_far, tol)
                 if rs is not None:
-                    radial_surface[(ls, zs)] = rs
+                    radial[("far", SURFACE, layer_s, 0.0, zs)] = rs
                     terms = max(terms, rs.terms)
                 rs = _radial(kern, 0.0, zs, soil, 0.0, d_near, near, tol, tails_only=True)
                 if rs is not None:
-                    radial_surface_near[(ls, zs)] = rs
+                    radial[("tails", SURFACE, layer_s, 0.0, zs)] = rs
     explicit = max(len(p.explicit) for p in pairs.values())
     notes = [
         f"Two-layer soil, K = {k:+.4f}: image series summed until the omitted terms are below "
@@ -314,17 +362,14 @@ def two_layer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> Gree
             "The upper layer is very thin compared with the segment length; some image series "
             "were cut over to their smooth tail closer than usual, which lowers accuracy slightly."
         )
-    return Greens(
+    return TwoLayerGreens(
         pairs=pairs,
         surface=surface,
         description=f"two-layer soil (K = {k:+.4f}, H = {h:g} m): image series to {tol:g}",
         terms=max(terms, explicit),
         explicit_terms=explicit,
-        tail_function=table,
-        radial_far=radial_far,
-        radial_surface=radial_surface,
-        radial_near=radial_near,
-        radial_surface_near=radial_surface_near,
+        tail_table=table,
+        radial=radial,
         tolerance=tol,
         notes=tuple(notes),
     )

@@ -193,8 +193,8 @@ def fit_soil(readings: WennerReadings) -> SoilFit:
     la = np.log(meas)
     uni = float(np.exp(la.mean()))
     uni_mis = _rms_pct(np.full_like(meas, uni), meas)
-    lo = np.log([0.1, 0.1, 0.01 * a.min()])
-    hi = np.log([1e6, 1e6, 10.0 * a.max()])
+    low = np.log([0.1, 0.1, 0.01 * a.min()])
+    high = np.log([1e6, 1e6, 10.0 * a.max()])
 
     def resid(x: np.ndarray) -> np.ndarray:
         r1, r2, h = np.exp(x)
@@ -206,13 +206,13 @@ def fit_soil(readings: WennerReadings) -> SoilFit:
         itertools.product(
             [first, math.sqrt(first * last)],
             [last, last * 3.0 if last > first else last / 3.0],
-            np.geomspace(max(a.min() * 0.5, np.exp(lo[2])), a.max() * 2.0, 4),
+            np.geomspace(max(a.min() * 0.5, np.exp(low[2])), a.max() * 2.0, 4),
         )
     )
     best = None
     for r1, r2, h in starts:
-        x0 = np.clip(np.log([r1, r2, h]), lo + 1e-9, hi - 1e-9)
-        res = scipy.optimize.least_squares(resid, x0, bounds=(lo, hi), x_scale=1.0, xtol=1e-12, ftol=1e-12)
+        x0 = np.clip(np.log([r1, r2, h]), low + 1e-9, high - 1e-9)
+        res = scipy.optimize.least_squares(resid, x0, bounds=(low, high), x_scale=1.0, xtol=1e-12, ftol=1e-12)
         if best is None or res.cost < best.cost:
             best = res
     r1, r2, h = (float(v) for v in np.exp(best.x))

@@ -13,18 +13,15 @@ from __future__ import annotations
 import logging
 import math
 from collections.abc import Callable
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 import scipy.ndimage
 import scipy.optimize
 
+from ..geometry.classes import segment_classes
 from ..geometry.footprint import Footprint
-from ..geometry.segments import Segments
-from ..mom.assembly import horizontal_mask
-from ..mom.integrals import FAR_MARGIN, FAR_RATIO, gauss_legendre_unit, line_integral
 from ..mom.solver import Solution
-from ..soil.twolayer import depth_key
 
 __all__ = [
     "Raster",
@@ -40,107 +37,8 @@ __all__ = [
 
 log = logging.getLogger(__name__)
 
-#: Point-segment pairs evaluated at once (memory bound).
-CHUNK_PAIRS = 131_072
-#: Gauss points along a source segment for the smooth image tails.
-TAIL_POINTS = 4
 #: Step length of IEEE Std 80 (clause 8.3): 1 m.
 STEP_LENGTH_M = 1.0
-
-
-def _point_segment_general(p: np.ndarray, seg, greens, kern, src: np.ndarray) -> np.ndarray:
-    """Potential per unit current at surface points ``p`` (m, 3) of segments ``src``, exactly."""
-    a, b = seg.a[src], seg.b[src]
-    r2 = seg.radius[src] ** 2
-    length = seg.length[src]
-    acc = np.zeros(src.size)
-    for img in kern.explicit:
-        sa = a.copy()
-        sb = b.copy()
-        sa[:, 2] = img.map_depth(sa[:, 2])
-        sb[:, 2] = img.map_depth(sb[:, 2])
-        acc += img.weight_ohm_m * line_integral(p, sa, sb, r2)
-    if kern.tails:
-        acc += _tail_point_segment(p, seg, greens, kern, src)
-    return acc / (4.0 * np.pi * length)
-
-
-def _tail_point_segment(p: np.ndarray, seg, greens, kern, src: np.ndarray) -> np.ndarray:
-    """Integral of the image tails over source segments seen from surface points (times weights)."""
-    a, b = seg.a[src], seg.b[src]
-    length = seg.length[src]
-    out = np.zeros(src.size)
-    rest = np.ones(src.size, dtype=bool)
-    ls = int(seg.layer[src[0]]) if src.size else 0
-    if greens.radial_surface_near:
-        hor = horizontal_mask(seg)[src]
-        keys = depth_key(a[:, 2])
-        for (lay, zkey), table in greens.radial_surface_near.items():
-            if lay != ls:
-                continue
-            m = hor & (keys == zkey)
-            if not m.any():
-                continue
-            mid = 0.5 * (a[m] + b[m])
-            dx, dy = p[m, 0] - mid[:, 0], p[m, 1] - mid[:, 1]
-            e = (b[m] - a[m]) / length[m, None]
-            ps = dx * e[:, 0] + dy * e[:, 1]
-            s1, s3, s5 = table(np.hypot(dx, dy))
-            out[m] = (s1 + length[m] ** 2 / 24.0 * (3.0 * ps * ps * s5 - s3)) * length[m]
-            rest &= ~m
-    if rest.any():
-        t, w = gauss_legendre_unit(TAIL_POINTS)
-        tsum = np.zeros(int(rest.sum()))
-        ar, br, pr = a[rest], b[rest], p[rest]
-        for ti, wi in zip(t, w, strict=True):
-            q = ar + ti * (br - ar)
-            d = np.hypot(pr[:, 0] - q[:, 0], pr[:, 1] - q[:, 1])
-            for tail in kern.tails:
-                tsum += wi * tail.weight_ohm_m * greens.tail_function(d, tail.argument(0.0, q[:, 2]))
-        out[rest] = tsum * length[rest]
-    return out
-
-
-def _fast_groups(seg, greens, sel: np.ndarray, ls: int) -> tuple[np.ndarray, dict]:
-    """Sources of ``sel`` that take the far-field fast path, and their radial-table groups."""
-    ok = horizontal_mask(seg)[sel]
-    kern = greens.surface[ls]
-    groups: dict[float, np.ndarray] = {}
-    if greens.layered and (kern.other_images or kern.tails):
-        keys = depth_key(seg.a[sel, 2])
-        has = np.array([(ls, k) in greens.radial_surface for k in keys], dtype=bool)
-        ok &= has
-        for key in np.unique(keys[ok]):
-            groups[float(key)] = np.flatnonzero(ok & (keys == key))
-    return ok, groups
-
-
-def _single_image_far(pp, mid, e, c2, l2c, scale):
-    """``scale [1/R + L^2/24 (3 p^2 / R^5 - 1/R^3)]`` for one image, in place; also returns d^2.
-
-    ``R^2 = d^2 + c2`` (plan distance squared plus depth offset squared and
-    radius squared), ``p`` the plan offset along the segment, ``l2c = L^2/24``.
-    """
-    dx = pp[:, 0, None] - mid[None, :, 0]
-    dy = pp[:, 1, None] - mid[None, :, 1]
-    d2 = dx * dx
-    d2 += dy * dy
-    np.multiply(dx, e[None, :, 0], out=dx)
-    np.multiply(dy, e[None, :, 1], out=dy)
-    dx += dy  # p, the offset along the segment
-    np.add(d2, c2, out=dy)
-    np.divide(1.0, dy, out=dy)  # t = 1 / R^2
-    inv = np.sqrt(dy)  # 1 / R
-    np.multiply(dx, dx, out=dx)
-    dx *= 3.0
-    dx *= dy
-    dx -= 1.0
-    dx *= dy
-    dx *= l2c
-    dx += 1.0
-    dx *= inv
-    dx *= scale
-    return dx, d2
 
 
 def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -> np.ndarray:
@@ -162,76 +60,12 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
 
     Notes
     -----
-    Horizontal segments more than ``FAR_RATIO`` of their lengths away use
-    the mid-point rule with its second-order correction (relative error
-    below 2e-5 there), summed over all images at once with radial sums; other
-    pairs use the exact line-source formula per explicit image and a
-    Gauss rule on the smooth image tails.
+    Evaluated by :meth:`groundcalc.mom.operator.Operator.surface_potential`:
+    the corrected mid-point rule for distant horizontal segments, exact
+    line-source integrals per image and a Gauss rule on the image tails
+    near them.
     """
-    pts = np.asarray(points_xy, dtype=float).reshape(-1, 2)
-    m = pts.shape[0]
-    seg = solution.segments
-    greens = solution.greens
-    current = solution.unit_currents_a * gpr_v
-    out = np.zeros(m)
-    for ls, kern in greens.surface.items():
-        sel = np.flatnonzero(seg.layer == ls)
-        if sel.size == 0:
-            continue
-        mid = seg.mid[sel]
-        length = seg.length[sel]
-        e = (seg.b[sel] - seg.a[sel]) / length[:, None]
-        zs = mid[:, 2]
-        r2 = seg.radius[sel] ** 2
-        ok, groups = _fast_groups(seg, greens, sel, ls)
-        q = current[sel]
-        rows = max(1, CHUNK_PAIRS // sel.size)
-        single = len(kern.direct_images) == 1 and not groups
-        if single:
-            img = kern.direct_images[0]
-            c2 = (img.map_depth(zs) ** 2 + r2)[None, :]
-            l2c = (length * length / 24.0)[None, :]
-        for p0 in range(0, m, rows):
-            pp = pts[p0 : p0 + rows]
-            if single:
-                # one image (uniform soil): the same corrected mid-point rule, written in place
-                vals, d2 = _single_image_far(pp, mid, e, c2, l2c, img.weight_ohm_m / (4.0 * np.pi))
-            else:
-                vals, d2 = _images_far(pp, mid, e, zs, r2, length, kern, groups, greens, ls)
-            general = (d2 < (FAR_RATIO * FAR_RATIO) * FAR_MARGIN * (length * length)[None, :]) | ~ok[None, :]
-            if general.any():
-                pi, sj = np.nonzero(general)
-                p3 = np.zeros((pi.size, 3))
-                p3[:, :2] = pp[pi]
-                vals[pi, sj] = _point_segment_general(p3, seg, greens, kern, sel[sj])
-            out[p0 : p0 + rows] += vals @ q
-    return out
-
-
-def _images_far(pp, mid, e, zs, r2, length, kern, groups, greens, ls):
-    """Corrected mid-point rule summed over the leading images and the tabulated rest; also d^2."""
-    dx = pp[:, 0, None] - mid[None, :, 0]
-    dy = pp[:, 1, None] - mid[None, :, 1]
-    d2 = dx * dx + dy * dy
-    ps = dx * e[None, :, 0] + dy * e[None, :, 1]
-    s1 = np.zeros(d2.shape)
-    s3 = np.zeros(d2.shape)
-    s5 = np.zeros(d2.shape)
-    for img in kern.direct_images:
-        dz = img.map_depth(zs)[None, :]
-        rr = d2 + dz * dz + r2[None, :]
-        inv = 1.0 / np.sqrt(rr)
-        inv3 = inv / rr
-        s1 += img.weight_ohm_m * inv
-        s3 += img.weight_ohm_m * inv3
-        s5 += img.weight_ohm_m * inv3 / rr
-    for key, cols in groups.items():
-        t1, t3, t5 = greens.radial_surface[(ls, key)](np.sqrt(d2[:, cols]), clamp=True)
-        s1[:, cols] += t1
-        s3[:, cols] += t3
-        s5[:, cols] += t5
-    l2 = (length * length)[None, :]
-    return (s1 + (l2 / 24.0) * (3.0 * ps * ps * s5 - s3)) / (4.0 * np.pi), d2
+    return solution.operator.surface_potential(points_xy, solution.currents_per_gpr * gpr_v)
 
 
 @dataclass(frozen=True)
@@ -295,14 +129,6 @@ class Raster:
 LATTICE_MIN_GROUP = 16
 
 
-def _subset(solution: Solution, idx: np.ndarray, currents: np.ndarray | None = None) -> Solution:
-    """The solution restricted to segments ``idx`` (optionally with other currents)."""
-    seg = solution.segments
-    sub = Segments(seg.a[idx], seg.b[idx], seg.radius[idx], seg.conductor[idx], seg.layer[idx])
-    cur = solution.unit_currents_a[idx] if currents is None else currents
-    return replace(solution, segments=sub, unit_currents_a=cur)
-
-
 def _convolve_full(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Full 2-D linear convolution of real arrays by FFT."""
     import scipy.fft
@@ -319,7 +145,7 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     Notes
     -----
     Segments that are shifted copies of one another (a class of
-    :func:`groundcalc.mom.assembly.segment_classes`) and whose mid points sit at
+    :func:`groundcalc.geometry.classes.segment_classes`) and whose mid points sit at
     the same fractional position within the raster cells contribute a
     discrete convolution of their currents with one kernel table: the
     potential of one such segment at every raster offset, evaluated once by
@@ -327,8 +153,6 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     (``scipy.fft``); other segments are summed directly. Both
     give the same values to round-off (tests/test_surface.py).
     """
-    from ..mom.assembly import segment_classes
-
     seg = solution.segments
     nx, ny = x.size, y.size
     xx, yy = np.meshgrid(x, y)
@@ -348,7 +172,8 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     sizes = np.bincount(group)
     out = np.zeros((ny, nx))
     direct = np.flatnonzero(sizes[group] < LATTICE_MIN_GROUP)
-    current = solution.unit_currents_a * gpr_v
+    current = solution.currents_per_gpr * gpr_v
+    op = solution.operator
     for g in np.flatnonzero(sizes >= LATTICE_MIN_GROUP):
         idx = np.flatnonzero(group == g)
         ix, iy = kx[idx].astype(np.int64), ky[idx].astype(np.int64)
@@ -364,14 +189,14 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
         px = x[0] + (dxs + kx[ref]) * sx
         py = y[0] + (dys + ky[ref]) * sy
         gx, gy = np.meshgrid(px, py)
-        one = _subset(solution, idx[:1], np.ones(1))
-        kern = surface_potential(np.column_stack([gx.ravel(), gy.ravel()]), one, 1.0).reshape(dys.size, dxs.size)
+        kern = op.surface_potential(np.column_stack([gx.ravel(), gy.ravel()]), np.ones(1), idx[:1])
+        kern = kern.reshape(dys.size, dxs.size)
         full = _convolve_full(q, kern)
         # full[a, b] pairs q index (iy - y0i, ix - x0i) with kernel index (j - iy + y1i, i - ix + x1i):
         # raster row j sits at a = j + y1i - y0i, column i at b = i + x1i - x0i
         out += full[y1i - y0i : y1i - y0i + ny, x1i - x0i : x1i - x0i + nx]
     if direct.size:
-        out += surface_potential(flat, _subset(solution, direct), gpr_v).reshape(ny, nx)
+        out += op.surface_potential(flat, current[direct], direct).reshape(ny, nx)
     return out
 
 
@@ -419,12 +244,12 @@ def build_raster(
     """
     seg = solution.segments
     pts = np.concatenate([seg.a[:, :2], seg.b[:, :2]])
-    lo = pts.min(axis=0) - margin_m
-    hi = pts.max(axis=0) + margin_m
-    nx = int(np.floor((hi[0] - lo[0]) / spacing_m + 1e-9)) + 1
-    ny = int(np.floor((hi[1] - lo[1]) / spacing_m + 1e-9)) + 1
-    x = lo[0] + spacing_m * np.arange(nx)
-    y = lo[1] + spacing_m * np.arange(ny)
+    low = pts.min(axis=0) - margin_m
+    high = pts.max(axis=0) + margin_m
+    nx = int(np.floor((high[0] - low[0]) / spacing_m + 1e-9)) + 1
+    ny = int(np.floor((high[1] - low[1]) / spacing_m + 1e-9)) + 1
+    x = low[0] + spacing_m * np.arange(nx)
+    y = low[1] + spacing_m * np.arange(ny)
     xx, yy = np.meshgrid(x, y)
     flat = np.column_stack([xx.ravel(), yy.ravel()])
     log.info("surface potential on %d x %d raster (%.2f m)", nx, ny, spacing_m)
@@ -551,10 +376,10 @@ def find_max_step(raster: Raster, potential: Callable[[np.ndarray], np.ndarray])
         return StepResult(raster_max, (0.0, 0.0), (0.0, 0.0), raster_max)
     p = _step_pair(best[:2], best[2])
     pot = potential(p)
-    hi, lo = (0, 1) if pot[0] >= pot[1] else (1, 0)
+    high, low = (0, 1) if pot[0] >= pot[1] else (1, 0)
     return StepResult(
         best_val,
-        (float(p[hi][0]), float(p[hi][1])),
-        (float(p[lo][0]), float(p[lo][1])),
+        (float(p[high][0]), float(p[high][1])),
+        (float(p[low][0]), float(p[low][1])),
         raster_max,
     )
