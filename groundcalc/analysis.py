@@ -15,10 +15,10 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .geometry.footprint import compute_footprint
-from .geometry.segments import Segmentation, move_off_interface, segment_conductors
+from .geometry.segments import move_off_interface, segment_conductors
 from .model import Design, Notice
 from .mom.assembly import build_greens
-from .mom.solver import Solution, solve
+from .mom.solver import GeometryResult, solve
 from .safety.closedform import ClosedForm, ConductorSizing, closed_form_check, conductor_sizing
 from .safety.ieee80 import decrement_factor, grid_current_a
 from .safety.limits import Assessment, Limits, assess, tolerable_limits
@@ -47,15 +47,6 @@ __all__ = [
 ]
 
 log = logging.getLogger(__name__)
-
-
-@dataclass(frozen=True)
-class GeometryResult:
-    """Segmentation and method-of-moments solution (per volt of GPR)."""
-
-    segmentation: Segmentation
-    solution: Solution
-    seconds: dict[str, float]
 
 
 @dataclass(frozen=True)

@@ -15,11 +15,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .analysis import GeometryResult
 from .geometry.metal import MetalLayout, segment_groups
 from .model import Design, Notice
 from .mom.assembly import build_greens
 from .mom.groups import GroupSolution, solve_groups
+from .mom.solver import GeometryResult
 from .safety.checks import Check, MetalAssessment
 from .safety.limits import Assessment, Limits
 from .surface.checks import (
@@ -54,7 +54,7 @@ def solve_metal_geometry(design: Design):
     Returns
     -------
     GroupsGeometry
-        A :class:`groundcalc.analysis.GeometryResult` that also carries the
+        A :class:`groundcalc.mom.solver.GeometryResult` that also carries the
         group solution.
     """
     t0 = time.perf_counter()

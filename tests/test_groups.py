@@ -8,7 +8,7 @@ from groundcalc.geometry.segments import segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod, Soil
 from groundcalc.mom.groups import resistance_matrix, solve_groups
 from groundcalc.mom.solver import solve
-from groundcalc.soil.greens import uniform_greens
+from groundcalc.soil.uniform import uniform_greens
 
 RHO = 100.0
 L = 3.0
@@ -63,7 +63,7 @@ def test_floating_group_passes_no_net_current():
     grid = GridSpec("G", 0, 0, 10, 10, 3, 3, 0.5, 0.01).conductors()
     pipe = Conductor("pipe", (-5, 4, 1.0), (15, 4, 1.0), 0.1)
     gs, res = solved(grid, [MetalGroup("pipe", False, (pipe,))], seg_len=2.0)
-    cur = res.solution.unit_currents_a
+    cur = res.solution.currents_per_gpr
     on_pipe = gs.group == 1
     assert abs(cur[on_pipe].sum()) < 1e-12 * np.abs(cur).sum()
     assert res.net_current_a[1] == pytest.approx(0.0, abs=1e-12 * res.net_current_a[0])
@@ -80,7 +80,7 @@ def test_bonded_group_equals_the_same_conductors_in_the_grid():
     ref = solve(seg.segments, GREENS)
     gs, res = solved(grid, [MetalGroup("fence", True, tuple(extra))], seg_len=2.0)
     assert res.solution.resistance_ohm == pytest.approx(ref.resistance_ohm, rel=1e-10)
-    assert np.allclose(res.solution.unit_currents_a, ref.unit_currents_a, rtol=1e-9, atol=0)
+    assert np.allclose(res.solution.currents_per_gpr, ref.currents_per_gpr, rtol=1e-9, atol=0)
     assert res.potential_pu[1] == 1.0
     assert res.net_current_a.sum() == pytest.approx(1 / ref.resistance_ohm, rel=1e-10)
 

@@ -6,20 +6,30 @@ fabric) and so sit at one potential. The grid is group 0. A bonded group is
 joined to the grid (held at the GPR); a floating one carries no net current
 and takes the potential the field puts on it.
 
-This module holds the validated description (frozen dataclasses in SI units,
-built by :mod:`groundcalc.io.metal`), expands fence runs into posts (vertical
+The validated description (frozen dataclasses in SI units, built by
+:mod:`groundcalc.io.metal`) lives in :mod:`groundcalc.model`; this module expands fence runs into posts (vertical
 rods) and buried bottom wires, and segments everything for the solver with
 a group index per segment.
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ..model import Conductor, Notice
+from ..model import (
+    DEFAULT_FENCE_REACH_M,
+    DEFAULT_WIRE_DIAMETER_M,
+    CheckArea,
+    CheckPoint,
+    Conductor,
+    FenceRun,
+    MetalGroup,
+    MetalLayout,
+    Notice,
+    Profile,
+)
 from .segments import Segmentation, Segments, move_off_interface, segment_conductors
 
 __all__ = [
@@ -36,166 +46,8 @@ __all__ = [
     "segment_distance",
 ]
 
-#: Reach distance from a fence to a person touching it (common practice: 1 m). [m]
-DEFAULT_FENCE_REACH_M = 1.0
-#: Bottom-wire diameter when none is given (our default, a 10 mm round wire). [m]
-DEFAULT_WIRE_DIAMETER_M = 0.010
 #: Posts closer than this are taken as one (a corner shared by two runs). [m]
 POST_MERGE_M = 1e-3
-
-
-@dataclass(frozen=True)
-class FenceRun:
-    """One straight run of fence.
-
-    Parameters
-    ----------
-    label : str
-        Fence name; runs with the same label form one fence (one group,
-        connected through the fabric above grade).
-    start, end : tuple of float
-        Plan (x, y) of the two ends. [m]
-    post_spacing_m : float
-        Largest distance between posts; posts are spread evenly from end to end. [m]
-    post_length_m : float
-        Buried length of each post (top at grade). [m]
-    post_diameter_m : float
-        Post diameter. [m]
-    bonded : bool
-        Whether the fence is bonded to the grid.
-    bottom_wire_depth_m : float or None
-        Depth of a buried bottom wire along the run. [m]
-    bottom_wire_diameter_m : float
-        Its diameter. [m]
-    gate_swing_m : float or None
-        The run carries a gate hinged at ``start`` whose leaf sweeps a disc of
-        this radius (either way). [m]
-    source : str
-        Where it came from, e.g. ``"Fences row 3"``.
-    """
-
-    label: str
-    start: tuple[float, float]
-    end: tuple[float, float]
-    post_spacing_m: float
-    post_length_m: float
-    post_diameter_m: float
-    bonded: bool
-    bottom_wire_depth_m: float | None = None
-    bottom_wire_diameter_m: float = DEFAULT_WIRE_DIAMETER_M
-    gate_swing_m: float | None = None
-    source: str = ""
-
-    @property
-    def length_m(self) -> float:
-        """Plan length of the run. [m]"""
-        return math.hypot(self.end[0] - self.start[0], self.end[1] - self.start[1])
-
-    def post_positions(self) -> np.ndarray:
-        """Plan positions of the posts, ends included, shape (k, 2). [m]"""
-        n = max(1, math.ceil(self.length_m / self.post_spacing_m - 1e-9))
-        t = np.arange(n + 1) / n
-        a, b = np.array(self.start, float), np.array(self.end, float)
-        return a[None, :] + t[:, None] * (b - a)[None, :]
-
-    def bottom_wire(self) -> Conductor | None:
-        """The buried bottom wire as a conductor, if there is one."""
-        if self.bottom_wire_depth_m is None:
-            return None
-        z = self.bottom_wire_depth_m
-        return Conductor(
-            f"{self.label} wire ({self.source})",
-            (self.start[0], self.start[1], z),
-            (self.end[0], self.end[1], z),
-            self.bottom_wire_diameter_m,
-            "conductor",
-            self.source,
-            "steel 1020",
-        )
-
-
-@dataclass(frozen=True)
-class MetalGroup:
-    """Conductors at one potential other than the grid.
-
-    Attributes
-    ----------
-    name : str
-        Group name (Metal sheet) or fence label.
-    bonded : bool
-        Bonded to the grid (at the GPR) or floating (zero net current).
-    conductors : tuple of Conductor
-        Buried conductors and rods of the group.
-    kind : str
-        ``"metal"`` (Metal sheet) or ``"fence"``.
-    source : str
-        Sheet and row.
-    """
-
-    name: str
-    bonded: bool
-    conductors: tuple[Conductor, ...]
-    kind: str = "metal"
-    source: str = ""
-
-
-@dataclass(frozen=True)
-class CheckPoint:
-    """Where a person stands while touching the metal of a group.
-
-    ``group`` is ``""`` for the grid (and metal bonded to it).
-    """
-
-    label: str
-    x_m: float
-    y_m: float
-    group: str = ""
-    source: str = ""
-
-
-@dataclass(frozen=True)
-class CheckArea:
-    """A plan polygon where people walk and touch grid-connected metal."""
-
-    name: str
-    polygon: tuple[tuple[float, float], ...]
-    source: str = ""
-
-
-@dataclass(frozen=True)
-class Profile:
-    """A named straight line along which the surface potential is reported."""
-
-    label: str
-    start: tuple[float, float]
-    end: tuple[float, float]
-    source: str = ""
-
-
-@dataclass(frozen=True)
-class MetalLayout:
-    """All metal besides the grid and where touch and step are checked."""
-
-    groups: tuple[MetalGroup, ...] = ()
-    fences: tuple[FenceRun, ...] = ()
-    check_points: tuple[CheckPoint, ...] = ()
-    check_areas: tuple[CheckArea, ...] = ()
-    profiles: tuple[Profile, ...] = ()
-    fence_reach_m: float = DEFAULT_FENCE_REACH_M
-    areas_replace_footprint: bool = False
-
-    @property
-    def empty(self) -> bool:
-        """True when nothing here changes the analysis."""
-        return not (self.groups or self.check_points or self.check_areas or self.profiles)
-
-    def group(self, name: str) -> MetalGroup | None:
-        """Group called ``name`` (case-insensitive), or None."""
-        key = name.strip().lower()
-        for g in self.groups:
-            if g.name.strip().lower() == key:
-                return g
-        return None
 
 
 def fence_conductors(runs: list[FenceRun] | tuple[FenceRun, ...]) -> tuple[Conductor, ...]:

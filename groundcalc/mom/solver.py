@@ -20,13 +20,13 @@ from functools import cached_property
 import numpy as np
 import scipy.linalg
 
-from ..geometry.segments import Segments
+from ..geometry.segments import Segmentation, Segments
 from ..model import Notice
 from ..soil.greens import Greens
 from .assembly import assemble
 from .operator import Operator
 
-__all__ = ["Solution", "assemble", "solve"]
+__all__ = ["GeometryResult", "Solution", "assemble", "solve"]
 
 log = logging.getLogger(__name__)
 
@@ -208,3 +208,12 @@ def solve(segments: Segments, greens: Greens, method: str = "auto") -> Solution:
             )
         )
     return Solution(segments, 1.0 / total, currents, greens, solver, tuple(notices))
+
+
+@dataclass(frozen=True)
+class GeometryResult:
+    """Segmentation and method-of-moments solution of a design (per volt of GPR)."""
+
+    segmentation: Segmentation
+    solution: Solution
+    seconds: dict[str, float]
