@@ -63,17 +63,17 @@ def _summary_lines(results) -> list[str]:
         f"Decrement factor     Df   = {results.decrement_factor:10.4f}",
         f"Grid current         I_G  = {results.grid_current_a:10.1f} A",
         f"Ground potential rise GPR = {results.gpr_v:10.1f} V",
-        f"Max touch voltage         = {results.max_touch_v:10.1f} V   limit {lim.touch_v:8.1f} V   "
+        f"Max touch voltage         = {results.max_touch_v:10.1f} V   limit {lim.touch_limit_v:8.1f} V   "
         f"margin {a.touch_margin_pct:+6.1f} %   {'PASS' if a.touch_ok else 'FAIL'}   "
         f"at ({t.location_xy[0]:.2f}, {t.location_xy[1]:.2f}) m",
-        f"Max step voltage          = {results.max_step_v:10.1f} V   limit {lim.step_v:8.1f} V   "
+        f"Max step voltage          = {results.max_step_v:10.1f} V   limit {lim.step_limit_v:8.1f} V   "
         f"margin {a.step_margin_pct:+6.1f} %   {'PASS' if a.step_ok else 'FAIL'}   "
         f"from ({s.start_xy[0]:.2f}, {s.start_xy[1]:.2f}) to ({s.end_xy[0]:.2f}, {s.end_xy[1]:.2f}) m",
         f"Limits: {lim.basis}, Cs = {lim.cs:.4f}",
     ]
     if lim.touch_user or lim.step_user:
         lines.append(
-            f"  (IEEE Std 80 values for comparison: touch {lim.ieee_touch_v:.1f} V, step {lim.ieee_step_v:.1f} V)"
+            f"  (IEEE Std 80 values for comparison: touch {lim.ieee80_touch_limit_v:.1f} V, step {lim.ieee80_step_limit_v:.1f} V)"
         )
     sz = results.sizing
     if sz is not None:

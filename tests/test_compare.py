@@ -141,7 +141,7 @@ def test_soil_variant_solves_again_and_surface_variant_does_not(tmp_path):
     base, dry, rock, two = d["variants"]
     assert dry["grid_resistance_ohm"] == pytest.approx(2 * base["grid_resistance_ohm"], rel=1e-9)
     assert rock["grid_resistance_ohm"] == base["grid_resistance_ohm"]
-    assert rock["tolerable_touch_v"] > base["tolerable_touch_v"]  # thicker rock: larger Cs (Eq. 27)
+    assert rock["touch_limit_v"] > base["touch_limit_v"]  # thicker rock: larger Cs (Eq. 27)
     assert two["grid_resistance_ohm"] < base["grid_resistance_ohm"]  # wet clay below lowers Rg
 
 
