@@ -73,7 +73,8 @@ def _summary_lines(results) -> list[str]:
     ]
     if lim.touch_user or lim.step_user:
         lines.append(
-            f"  (IEEE Std 80 values for comparison: touch {lim.ieee80_touch_limit_v:.1f} V, step {lim.ieee80_step_limit_v:.1f} V)"
+            f"  (IEEE Std 80 values for comparison: touch {lim.ieee80_touch_limit_v:.1f} V, "
+            f"step {lim.ieee80_step_limit_v:.1f} V)"
         )
     sz = results.sizing
     if sz is not None:

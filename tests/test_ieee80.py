@@ -7,8 +7,8 @@ import pytest
 from groundcalc.safety.ieee80 import (
     decrement_factor,
     grid_current_a,
-    surface_layer_factor,
     step_limit_v,
+    surface_layer_factor,
     touch_limit_v,
 )
 

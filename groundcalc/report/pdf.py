@@ -96,8 +96,8 @@ def summary(results: Results) -> list:
     basis = f"Tolerable voltages: {lim.basis}, Cs = {lim.cs:.4f}."
     if lim.touch_user or lim.step_user:
         basis += (
-            f" <b>User-defined limits replace IEEE Std 80</b> (IEEE Std 80 values: touch {lim.ieee80_touch_limit_v:.1f} V, "
-            f"step {lim.ieee80_step_limit_v:.1f} V)."
+            f" <b>User-defined limits replace IEEE Std 80</b> (IEEE Std 80 values: "
+            f"touch {lim.ieee80_touch_limit_v:.1f} V, step {lim.ieee80_step_limit_v:.1f} V)."
         )
     key = [
         ["Quantity", "Value"],
