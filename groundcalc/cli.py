@@ -145,11 +145,11 @@ def _cmd_run(args: argparse.Namespace) -> int:
     if variant_run is not None:
         print(f"\nBase case and variants (geometry solved {variant_run.geometry_solves} time(s)):")
         print("\n".join(table_lines(vsum, [None] * len(vsum), first="Case")))
-        extra = (variant_run.names, vsum, variant_run.overrides, variant_run.geometry_solves)
+        extra = (variant_run.names, vsum, variant_run.descriptions, variant_run.geometry_solves)
     if json_out:
         data = results_to_dict(results, args.workbook)
         if variant_run is not None:
-            data["variants"] = [{**s.to_dict(), "changes": o} for s, o in zip(vsum, variant_run.overrides, strict=True)]
+            data["variants"] = [{**s.to_dict(), "changes": o} for s, o in zip(vsum, variant_run.changes, strict=True)]
             data["geometry_solves"] = variant_run.geometry_solves
         write_json(json_out, data)
         log.info("wrote %s", json_out)
@@ -354,8 +354,8 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     from .analysis import resolve_soil
     from .io.outputs import check_output, write_design_with_layout
     from .io.workbook import read_design
-    from .studies.compare import default_jobs, rank, run_parallel, summarise_design, table_lines
-    from .studies.sweep import parse_counts, parse_range, sweep_layouts
+    from .studies.compare import default_jobs, rank, table_lines
+    from .studies.sweep import parse_counts, parse_range, run_sweep
 
     inputs = [args.workbook]
     outputs = _output_paths(args, inputs)
@@ -369,19 +369,15 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     design, fit = resolve_soil(read_design(args.workbook))
     if fit is not None:
         log.info("soil fitted once to the Wenner readings for every layout")
-    layouts = sweep_layouts(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0)
+    if len(design.grids) != 1:
+        raise InputError(
+            f"a sweep needs exactly one row on the 'Grids' sheet (this design has {len(design.grids)})",
+            sheet="Grids",
+            fix="Describe the grid to vary as one Grids row; fixed extra conductors may stay on the Conductors sheet",
+        )
     jobs = args.jobs or default_jobs()
-    log.info("sweep: %d layouts in %d worker process(es)", len(layouts), min(jobs, len(layouts)))
-    summaries = run_parallel(summarise_design, [(lay.name, lay.design) for lay in layouts], jobs)
-    for lay, s in zip(layouts, summaries, strict=True):
-        s.extra = {
-            "spacing_target_m": lay.spacing_target_m,
-            "spacing_x_m": lay.spacing_x_m,
-            "spacing_y_m": lay.spacing_y_m,
-            "conductors_along_x": lay.n_along_x,
-            "conductors_along_y": lay.n_along_y,
-            "rods_added": lay.rods_added,
-        }
+    log.info("sweep in %d worker process(es)", jobs)
+    layouts, summaries = run_sweep(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0, jobs)
     ranks = rank(summaries)
     print("\n".join(table_lines(summaries, ranks, first="Layout")))
     best = min((k for k, r in enumerate(ranks) if r), key=lambda k: ranks[k], default=None)

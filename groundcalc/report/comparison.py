@@ -123,10 +123,10 @@ def write_comparison_report(
 
 
 def variants_section(
-    names: Sequence[str], summaries: Sequence[DesignSummary], overrides: Sequence[dict], solves: int
+    names: Sequence[str], summaries: Sequence[DesignSummary], changes: Sequence[str], solves: int
 ) -> list:
     """Variants table for the main report."""
-    changed = [", ".join(f"{k} {v:g}" for k, v in o.items()) or "-" for o in overrides]
+    changed = list(changes)
     rows = [["Case", "Changes (SI units)", "Rg [ohm]", "GPR [V]", "Touch / limit [V]", "Step / limit [V]", "Result"]]
     for n, s, c in zip(names, summaries, changed, strict=True):
         rows.append(

@@ -348,7 +348,7 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     sha256 : str
         SHA-256 of the input workbook.
     variants : tuple, optional
-        ``(names, summaries, overrides, geometry_solves)`` of the Variants
+        ``(names, summaries, changes, geometry_solves)`` of the Variants
         sheet, shown after the summary.
     """
     doc = SimpleDocTemplate(
