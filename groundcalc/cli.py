@@ -121,6 +121,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
     inputs = [args.workbook]
     report, json_out = _output_paths(args, inputs)
     dxf_out, levels = _dxf_output(args, inputs, [report, json_out])
+    csv_dir, xlsx_out = _table_outputs(args, inputs, [report, json_out, dxf_out])
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
@@ -164,6 +165,17 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
         counts = write_results_dxf(results, dxf_out, levels, args.dxf_units)
         print(f"\nwrote {dxf_out}: " + ", ".join(f"{layer} {n}" for layer, n in counts.items()))
+    if csv_dir or xlsx_out:
+        from .api import Results as FlatResults
+        from .io.frames import write_csv, write_results_xlsx
+
+        flat = FlatResults.from_pipeline(results)
+        if csv_dir:
+            written = write_csv(flat, results, csv_dir)
+            print(f"\nwrote {len(written)} CSV tables to {csv_dir}: " + ", ".join(w.name for w in written))
+        if xlsx_out:
+            write_results_xlsx(flat, results, xlsx_out)
+            print(f"\nwrote results workbook {xlsx_out} (sheets Summary, Segments, Surface, Profiles)")
     _print_cautions()
     return 0
 
@@ -184,6 +196,26 @@ def _dxf_output(args, inputs, others) -> tuple[Path | None, list[float] | None]:
     if any(o is not None and o.resolve() == out.resolve() for o in others):
         raise InputError("the DXF output is the same file as another output", fix="Give each output its own name")
     return out, levels
+
+
+def _table_outputs(args, inputs, others) -> tuple[Path | None, Path | None]:
+    """Checked ``--csv`` folder and ``--results-xlsx`` path (refused before any work if unusable)."""
+    from .io.frames import check_csv_folder
+    from .io.outputs import check_output
+
+    csv_dir = check_csv_folder(args.csv, inputs, args.overwrite) if args.csv else None
+    xlsx = None
+    if args.results_xlsx:
+        xlsx = check_output(args.results_xlsx, inputs, args.overwrite, "results workbook")
+        if xlsx.suffix.lower() != ".xlsx":
+            raise InputError(f"the results workbook '{xlsx.name}' must end in .xlsx", fix="For example results.xlsx")
+        if any(o is not None and o.resolve() == xlsx.resolve() for o in others):
+            raise InputError(
+                "the results workbook is the same file as another output", fix="Give each output its own name"
+            )
+    if csv_dir is not None and any(o is not None and o.resolve() == csv_dir.resolve() for o in others + [xlsx]):
+        raise InputError("the CSV folder is the same path as another output", fix="Give the tables their own folder")
+    return csv_dir, xlsx
 
 
 def _cmd_import(args: argparse.Namespace) -> int:
@@ -445,6 +477,10 @@ def _parser() -> argparse.ArgumentParser:
         "--contours", metavar="V,V,...", help="touch-voltage contour levels [V] (default: 25 %% to 200 %% of the limit)"
     )
     r.add_argument("--dxf-units", default="m", choices=("m", "mm", "cm", "ft", "in"), help="unit of the DXF (m)")
+    r.add_argument("--csv", metavar="DIR", help="write the summary, segments, surface raster and profiles as CSV here")
+    r.add_argument(
+        "--results-xlsx", metavar="XLSX", help="write a results workbook (Summary, Segments, Surface, Profiles)"
+    )
     r.set_defaults(func=_cmd_run)
 
     i = sub.add_parser("import", help="write a design workbook from the grid in a DXF drawing")

@@ -153,7 +153,11 @@ def test_soil_variant_solves_again_and_surface_variant_does_not(tmp_path):
             ["Variant", "Fault curent [A]"],
             ["'Fault curent [A]'", "row 1", "not a quantity a variant can change"],
         ),
-        ([{"Variant": "x", "Upper thickness [m]": 3}], None, ["row 2", "column 'Upper thickness [m]'", "only one of the upper thickness"]),
+        (
+            [{"Variant": "x", "Upper thickness [m]": 3}],
+            None,
+            ["row 2", "column 'Upper thickness [m]'", "only one of the upper thickness"],
+        ),
         ([{"Variant": "x", "Body weight [kg]": 60}], None, ["row 2", "50 or 70"]),
         ([{"Variant": "x", "Split factor": 1.5}], None, ["row 2", "at most 1"]),
         ([{"Variant": "x"}, {"Variant": "y", "Split factor": 0.5}], None, ["row 2", "changes nothing"]),
