@@ -43,4 +43,9 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "Touch voltage is checked over the grid footprint (the area enclosed by the outer "
         "conductors); metal that can be touched outside it, such as a fence, needs its own check.",
     ),
+    (
+        "Tables and the Python API",
+        "CSV tables, the results workbook and DataFrames carry the numbers without the report's "
+        "notes; touch voltage counts only where in_touch_area is true; designs built in code take SI units.",
+    ),
 )

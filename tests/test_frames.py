@@ -10,6 +10,7 @@ import openpyxl
 import pandas as pd
 import pytest
 
+from groundcalc.cautions import DRAFT_MARK
 from groundcalc.cli import main
 from groundcalc.io.frames import CSV_FILES, RESULT_SHEETS
 from groundcalc.io.schema import VARIANTS
@@ -72,6 +73,7 @@ def test_csv_tables_read_back(outputs):
     summ = pd.read_csv(folder / "summary.csv").set_index("quantity")
     assert float(summ.loc["resistance_ohm", "value"]) == d["grid_resistance_ohm"]
     assert summ.loc["touch_limit_v", "unit"] == "V"
+    assert summ.loc["status", "value"] == DRAFT_MARK
 
 
 def test_results_workbook_read_back(outputs):

@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 
 from ..analysis import Results as PipelineResults
+from ..cautions import DRAFT_MARK
 from ..errors import InputError
 from ..studies.compare import DesignSummary
 from ..surface.potential import STEP_LENGTH_M, surface_potential
@@ -227,10 +228,11 @@ def worst_point_profiles(results: PipelineResults, n: int = PROFILE_POINTS) -> p
 def summary_frame(flat: Any) -> pd.DataFrame:
     """A flat results record (a dataclass of numbers and text) as rows of quantity, value, unit.
 
-    Location tuples become one row per coordinate (``..._x``, ``..._y``);
-    notices are left out (they have their own listing).
+    The first row is the draft status. Location tuples become one row per
+    coordinate (``..._x``, ``..._y``); notices are left out (they have their
+    own listing).
     """
-    rows = []
+    rows: list[tuple[str, Any, str]] = [("status", DRAFT_MARK, "")]
     for f in dataclasses.fields(flat):
         if not f.repr or f.name == "notices":
             continue
