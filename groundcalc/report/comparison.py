@@ -127,7 +127,7 @@ def variants_section(
 ) -> list:
     """Variants table for the main report."""
     changed = list(changes)
-    rows = [["Case", "Changes (SI units)", "Rg [ohm]", "GPR [V]", "Touch / limit [V]", "Step / limit [V]", "Result"]]
+    rows = [["Case", "Changes", "Rg [ohm]", "GPR [V]", "Touch / limit [V]", "Step / limit [V]", "Result"]]
     for n, s, c in zip(names, summaries, changed, strict=True):
         rows.append(
             [

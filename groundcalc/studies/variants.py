@@ -1,4 +1,4 @@
-"""Variants of one design (Variants sheet): the base case and every variant, side by side.
+"""Variants of one design: typed overrides of soil, surface layer and fault, run beside the base case.
 
 The geometry solution and the surface raster depend only on the layout and
 the soil model: both are computed per volt of GPR. Variants that share a soil
