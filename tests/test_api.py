@@ -264,6 +264,25 @@ def test_variant_errors_below_the_reader_name_no_sheet():
 
 
 @pytest.mark.parametrize(
+    "variant,field,words",
+    [
+        (gc.Variant("v", soil=gc.SoilOverride(rho1_ohm_m=-5.0)), ("soil", "rho1_ohm_m"), "positive"),
+        (gc.Variant("v", fault=gc.FaultOverride(split_factor=1.5)), ("fault", "split_factor"), "more than 1"),
+        (gc.Variant("v", fault=gc.FaultOverride(body_weight_kg=60.0)), ("fault", "body_weight_kg"), "50 nor 70"),
+        (
+            gc.Variant("v", surface_layer=gc.SurfaceLayerOverride(rho_ohm_m=math.nan)),
+            ("surface_layer", "rho_ohm_m"),
+            "positive",
+        ),
+    ],
+)
+def test_bad_override_values(variant, field, words):
+    with pytest.raises(VariantError, match=words) as err:
+        gc.apply_variant(_small_grid(3), variant)
+    assert err.value.field == field and "sheet" not in str(err.value)
+
+
+@pytest.mark.parametrize(
     "call,words",
     [
         (lambda r: r.surface_potential_v([1.0, 2.0, 3.0]), "not (m, 2)"),

@@ -8,6 +8,7 @@ sizing) are applied again, because the model is linear in the current.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
@@ -192,6 +193,33 @@ class VariantError(InputError):
         super().__init__(problem, fix=fix)
 
 
+def _check_values(variant: Variant) -> None:
+    """Every override is a finite positive number; Sf at most 1; body weight 50 or 70 kg (IEEE Std 80)."""
+    for group, name, v in variant.items():
+        label, unit = LABELS[(group, name)]
+        if not math.isfinite(v) or v <= 0:
+            raise VariantError(
+                f"variant '{variant.name}': the {label} must be a positive number, got {v:g}",
+                variant=variant.name,
+                field=(group, name),
+                fix=f"Give a positive {label}" + (f" in {unit}" if unit else ""),
+            )
+        if name == "split_factor" and v > 1:
+            raise VariantError(
+                f"variant '{variant.name}': the split factor {v:g} is more than 1",
+                variant=variant.name,
+                field=(group, name),
+                fix="The split factor is the fraction of 3I0 that flows through the grid: at most 1",
+            )
+        if name == "body_weight_kg" and round(v) not in (50, 70):
+            raise VariantError(
+                f"variant '{variant.name}': the body weight {v:g} kg is neither 50 nor 70 kg",
+                variant=variant.name,
+                field=(group, name),
+                fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg bodies",
+            )
+
+
 def apply_variant(base: Design, variant: Variant) -> Design:
     """The base design with the variant's overrides applied (soil already resolved).
 
@@ -200,6 +228,7 @@ def apply_variant(base: Design, variant: Variant) -> Design:
     VariantError
         When the overrides do not make a valid design (naming the variant and the override).
     """
+    _check_values(variant)
     so, lo, fo = variant.soil, variant.surface_layer, variant.fault
     soil = base.soil
     rho1 = so.rho1_ohm_m if so.rho1_ohm_m is not None else soil.rho1_ohm_m
