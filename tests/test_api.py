@@ -133,6 +133,7 @@ def test_raster_frame_matches_surface_potential_at_its_points(grid):
     np.testing.assert_allclose(ras.touch_v, grid.gpr_v - ras.potential_v, rtol=0, atol=1e-9 * grid.gpr_v)
     pts = ras[["x_m", "y_m"]].to_numpy()
     direct = grid.surface_potential_v(pts)
+    np.testing.assert_allclose(grid.touch_voltage_v(pts), grid.gpr_v - direct, rtol=1e-12)
     # the raster is evaluated by FFT convolution of repeated segments, the points directly: same to round-off
     np.testing.assert_allclose(direct, ras.potential_v, rtol=0, atol=1e-9 * grid.gpr_v)
     inside = ras[ras.in_touch_area]
@@ -213,11 +214,14 @@ def test_write_json_and_report(tmp_path, grid):
 
 
 def test_compare_and_variants_return_frames():
-    frame = gc.compare([_small_grid(3), _small_grid(5)], names=["3x3", "5x5"])
-    assert isinstance(frame, pd.DataFrame) and list(frame.name) == ["3x3", "5x5"]
+    frame = gc.compare([_small_grid(3), _small_grid(5), "missing.xlsx"], names=["3x3", "5x5", "gone"])
+    assert isinstance(frame, pd.DataFrame) and list(frame.name) == ["3x3", "5x5", "gone"]
     for col in ("grid_resistance_ohm", "max_touch_v", "touch_limit_v", "buried_mass_kg", "rank", "error"):
         assert col in frame.columns, col
-    r3, r5 = frame.grid_resistance_ohm
+    gone = frame.set_index("name").loc["gone"]
+    assert "does not exist" in gone.error and pd.isna(gone["rank"]) and pd.isna(gone.grid_resistance_ohm)
+    assert frame.error[:2].isna().all()
+    r3, r5 = frame.grid_resistance_ohm[:2]
     assert r5 < r3  # more buried conductor, lower resistance (common practice)
     # Typed variants: the model is linear in the current, so doubling 3I0 doubles the GPR (Ohm's law);
     # a thicker surface layer raises Cs and the touch limit (IEEE Std 80 Eq. 27, Eq. 32).
