@@ -335,9 +335,16 @@ def write_results_xlsx(flat: Any, results: PipelineResults, path: str | Path) ->
             )
 
     def writer(tmp: Path) -> None:
-        with pd.ExcelWriter(tmp, engine="openpyxl") as xl:
-            for sheet, frame in zip(RESULT_SHEETS, tables.values(), strict=True):
-                frame.to_excel(xl, sheet_name=sheet, index=False)
-                xl.sheets[sheet].freeze_panes = "A2"
+        import openpyxl
+
+        wb = openpyxl.Workbook(write_only=True)  # streamed rows: several times faster for the raster
+        for sheet, frame in zip(RESULT_SHEETS, tables.values(), strict=True):
+            ws = wb.create_sheet(sheet)
+            ws.freeze_panes = "A2"
+            ws.append([str(c) for c in frame.columns])
+            cells = frame.astype(object).where(frame.notna(), None)
+            for row in cells.itertuples(index=False, name=None):
+                ws.append([v.item() if isinstance(v, np.generic) else v for v in row])
+        wb.save(tmp)
 
     atomic_write(path, writer)
