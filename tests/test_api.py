@@ -329,3 +329,29 @@ def test_compare_bad_input():
         gc.compare([42])
     with pytest.raises(gc.InputError, match="does not exist"):
         gc.analyse("no-such-design.xlsx")
+
+
+def test_analyse_and_the_cli_share_one_pipeline_function(monkeypatch):
+    # gc.analyse and `groundcalc run` both call groundcalc.analysis.analyse, so checks added there apply to both
+    import groundcalc.analysis as pipeline
+
+    calls = []
+    real = pipeline.analyse
+
+    def spy(design):
+        calls.append(design)
+        return real(design)
+
+    monkeypatch.setattr(pipeline, "analyse", spy)
+    design = _rod_design()
+    res = gc.analyse(design)
+    assert calls == [design] and res.pipeline.design.rods == design.rods
+
+    def refuse(design):
+        calls.append(design)
+        raise gc.InputError("refused by the pipeline")
+
+    monkeypatch.setattr(pipeline, "analyse", refuse)
+    calls.clear()
+    assert main(["run", str(EXAMPLE), "--quiet"]) == 2
+    assert len(calls) == 1 and calls[0].source_name == EXAMPLE.name
