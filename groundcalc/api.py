@@ -279,8 +279,10 @@ def analyse(design: Design | str | Path, name: str | None = None) -> Results:
     ----------
     design : Design or path
         A design built in code, or the path of a design workbook. The base
-        case only: variants on ``design.variants`` are run by
-        :func:`compare` after :func:`groundcalc.studies.variants.apply_variant`.
+        case only: ``compare(design)`` runs the base case and its
+        ``variants`` side by side, and
+        :func:`groundcalc.studies.variants.apply_variant` gives one variant
+        as a design of its own.
     name : str, optional
         Name used in tables; default the workbook or project name.
 

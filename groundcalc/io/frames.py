@@ -38,6 +38,7 @@ __all__ = [
     "segments_frame",
     "summaries_frame",
     "summary_frame",
+    "worst_point_profiles",
     "write_csv",
     "write_results_xlsx",
 ]
