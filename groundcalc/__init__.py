@@ -15,7 +15,17 @@ Results are a draft for review by a licensed professional engineer.
 
 __version__ = "0.1.0"
 
-from .api import Results, analyse, compare, read_design, sweep, write_json, write_report  # noqa: E402
+from .api import (  # noqa: E402
+    Results,
+    analyse,
+    compare,
+    read_design,
+    sweep,
+    write_csv,
+    write_json,
+    write_report,
+    write_results_xlsx,
+)
 from .errors import InputError  # noqa: E402
 from .model import (  # noqa: E402
     Conductor,
@@ -56,6 +66,8 @@ __all__ = [
     "compare",
     "read_design",
     "sweep",
+    "write_csv",
     "write_json",
     "write_report",
+    "write_results_xlsx",
 ]

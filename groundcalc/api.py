@@ -31,7 +31,17 @@ from .surface.potential import surface_potential
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["Results", "analyse", "compare", "read_design", "sweep", "write_json", "write_report"]
+__all__ = [
+    "Results",
+    "analyse",
+    "compare",
+    "read_design",
+    "sweep",
+    "write_csv",
+    "write_json",
+    "write_report",
+    "write_results_xlsx",
+]
 
 
 @dataclass(frozen=True)
@@ -457,4 +467,46 @@ def write_report(results: Results | analysis.Results, path: str | Path, overwrit
         raise InputError(f"the report name '{out.name}' must end in .pdf", fix="For example draft.pdf")
     name = run.design.source_name or "design built in code (no input file)"
     atomic_write(out, lambda tmp: _write(run, tmp, name, "-"))
+    return out
+
+
+def _flat(results: Results | analysis.Results) -> Results:
+    return results if isinstance(results, Results) else Results.from_pipeline(_pipeline(results))
+
+
+def write_csv(results: Results | analysis.Results, folder: str | Path, overwrite: bool = False) -> list[Path]:
+    """Write summary.csv, segments.csv, surface.csv and profiles.csv into ``folder`` (as ``run --csv``).
+
+    The folder is created if missing (its parent must exist); each file is
+    written atomically. Returns the paths written.
+
+    Raises
+    ------
+    InputError
+        When the folder is a file, its parent is missing, or a file exists without ``overwrite``.
+    """
+    from .io.frames import check_csv_folder
+    from .io.frames import write_csv as _write
+
+    flat = _flat(results)
+    out = check_csv_folder(folder, [], overwrite)
+    return _write(flat, flat._run(), out)
+
+
+def write_results_xlsx(results: Results | analysis.Results, path: str | Path, overwrite: bool = False) -> Path:
+    """Write the results workbook: Summary, Segments, Surface and Profiles (as ``run --results-xlsx``).
+
+    Raises
+    ------
+    InputError
+        When the path does not end in .xlsx, exists without ``overwrite``, or its folder is missing.
+    """
+    from .io.frames import write_results_xlsx as _write
+    from .io.outputs import check_output
+
+    flat = _flat(results)
+    out = check_output(path, [], overwrite, "results workbook")
+    if out.suffix.lower() != ".xlsx":
+        raise InputError(f"the results workbook '{out.name}' must end in .xlsx", fix="For example results.xlsx")
+    _write(flat, flat._run(), out)
     return out

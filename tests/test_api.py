@@ -211,6 +211,16 @@ def test_write_json_and_report(tmp_path, grid):
         gc.write_json(grid, tmp_path / "no" / "g.json")
     with pytest.raises(gc.InputError, match="results of groundcalc.analyse"):
         gc.write_json({"a": 1}, tmp_path / "x.json")
+    written = gc.write_csv(grid, tmp_path / "tables")
+    assert sorted(w.name for w in written) == ["profiles.csv", "segments.csv", "summary.csv", "surface.csv"]
+    pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "tables" / "segments.csv"), grid.segments_frame())
+    with pytest.raises(gc.InputError, match="already exists"):
+        gc.write_csv(grid, tmp_path / "tables")
+    book = gc.write_results_xlsx(grid, tmp_path / "g.xlsx")
+    surface = pd.read_excel(book, sheet_name="Surface", engine="openpyxl")
+    pd.testing.assert_frame_equal(surface, grid.raster_frame(), check_dtype=False)  # whole numbers read back as int
+    with pytest.raises(gc.InputError, match=r"must end in \.xlsx"):
+        gc.write_results_xlsx(grid, tmp_path / "g.xls")
 
 
 def test_compare_and_variants_return_frames():
