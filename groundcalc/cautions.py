@@ -46,4 +46,9 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "workbook is not checked. Step is checked over the grid and margin, the fence-reach bands and "
         "the check areas. Fence posts are bare rods from grade (no footings).",
     ),
+    (
+        "Tables and the Python API",
+        "CSV tables, the results workbook and DataFrames carry the numbers without the report's "
+        "notes; touch voltage counts only where in_touch_area is true; designs built in code take SI units.",
+    ),
 )

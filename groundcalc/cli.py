@@ -63,17 +63,18 @@ def _summary_lines(results) -> list[str]:
         f"Decrement factor     Df   = {results.decrement_factor:10.4f}",
         f"Grid current         I_G  = {results.grid_current_a:10.1f} A",
         f"Ground potential rise GPR = {results.gpr_v:10.1f} V",
-        f"Max touch voltage         = {results.max_touch_v:10.1f} V   limit {lim.touch_v:8.1f} V   "
+        f"Max touch voltage         = {results.max_touch_v:10.1f} V   limit {lim.touch_limit_v:8.1f} V   "
         f"margin {a.touch_margin_pct:+6.1f} %   {'PASS' if a.touch_ok else 'FAIL'}   "
         f"at ({t.location_xy[0]:.2f}, {t.location_xy[1]:.2f}) m",
-        f"Max step voltage          = {results.max_step_v:10.1f} V   limit {lim.step_v:8.1f} V   "
+        f"Max step voltage          = {results.max_step_v:10.1f} V   limit {lim.step_limit_v:8.1f} V   "
         f"margin {a.step_margin_pct:+6.1f} %   {'PASS' if a.step_ok else 'FAIL'}   "
         f"from ({s.start_xy[0]:.2f}, {s.start_xy[1]:.2f}) to ({s.end_xy[0]:.2f}, {s.end_xy[1]:.2f}) m",
         f"Limits: {lim.basis}, Cs = {lim.cs:.4f}",
     ]
     if lim.touch_user or lim.step_user:
         lines.append(
-            f"  (IEEE Std 80 values for comparison: touch {lim.ieee_touch_v:.1f} V, step {lim.ieee_step_v:.1f} V)"
+            f"  (IEEE Std 80 values for comparison: touch {lim.ieee80_touch_limit_v:.1f} V, "
+            f"step {lim.ieee80_step_limit_v:.1f} V)"
         )
     sz = results.sizing
     if sz is not None:
@@ -124,6 +125,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
     inputs = [args.workbook]
     report, json_out = _output_paths(args, inputs)
     dxf_out, levels = _dxf_output(args, inputs, [report, json_out])
+    csv_dir, xlsx_out = _table_outputs(args, inputs, [report, json_out, dxf_out])
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
@@ -148,11 +150,11 @@ def _cmd_run(args: argparse.Namespace) -> int:
     if variant_run is not None:
         print(f"\nBase case and variants (geometry solved {variant_run.geometry_solves} time(s)):")
         print("\n".join(table_lines(vsum, [None] * len(vsum), first="Case")))
-        extra = (variant_run.names, vsum, variant_run.overrides, variant_run.geometry_solves)
+        extra = (variant_run.names, vsum, variant_run.descriptions, variant_run.geometry_solves)
     if json_out:
         data = results_to_dict(results, args.workbook)
         if variant_run is not None:
-            data["variants"] = [{**s.to_dict(), "changes": o} for s, o in zip(vsum, variant_run.overrides, strict=True)]
+            data["variants"] = [{**s.to_dict(), "changes": o} for s, o in zip(vsum, variant_run.changes, strict=True)]
             data["geometry_solves"] = variant_run.geometry_solves
         write_json(json_out, data)
         log.info("wrote %s", json_out)
@@ -167,6 +169,17 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
         counts = write_results_dxf(results, dxf_out, levels, args.dxf_units)
         print(f"\nwrote {dxf_out}: " + ", ".join(f"{layer} {n}" for layer, n in counts.items()))
+    if csv_dir or xlsx_out:
+        from .api import Results as FlatResults
+        from .io.frames import write_csv, write_results_xlsx
+
+        flat = FlatResults.from_pipeline(results)
+        if csv_dir:
+            written = write_csv(flat, results, csv_dir)
+            print(f"\nwrote {len(written)} CSV tables to {csv_dir}: " + ", ".join(w.name for w in written))
+        if xlsx_out:
+            write_results_xlsx(flat, results, xlsx_out)
+            print(f"\nwrote results workbook {xlsx_out} (sheets Summary, Segments, Surface, Profiles)")
     _print_cautions()
     return 0
 
@@ -187,6 +200,26 @@ def _dxf_output(args, inputs, others) -> tuple[Path | None, list[float] | None]:
     if any(o is not None and o.resolve() == out.resolve() for o in others):
         raise InputError("the DXF output is the same file as another output", fix="Give each output its own name")
     return out, levels
+
+
+def _table_outputs(args, inputs, others) -> tuple[Path | None, Path | None]:
+    """Checked ``--csv`` folder and ``--results-xlsx`` path (refused before any work if unusable)."""
+    from .io.frames import check_csv_folder
+    from .io.outputs import check_output
+
+    csv_dir = check_csv_folder(args.csv, inputs, args.overwrite) if args.csv else None
+    xlsx = None
+    if args.results_xlsx:
+        xlsx = check_output(args.results_xlsx, inputs, args.overwrite, "results workbook")
+        if xlsx.suffix.lower() != ".xlsx":
+            raise InputError(f"the results workbook '{xlsx.name}' must end in .xlsx", fix="For example results.xlsx")
+        if any(o is not None and o.resolve() == xlsx.resolve() for o in others):
+            raise InputError(
+                "the results workbook is the same file as another output", fix="Give each output its own name"
+            )
+    if csv_dir is not None and any(o is not None and o.resolve() == csv_dir.resolve() for o in others + [xlsx]):
+        raise InputError("the CSV folder is the same path as another output", fix="Give the tables their own folder")
+    return csv_dir, xlsx
 
 
 def _cmd_import(args: argparse.Namespace) -> int:
@@ -357,8 +390,8 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     from .analysis import resolve_soil
     from .io.outputs import check_output, write_design_with_layout
     from .io.workbook import read_design
-    from .studies.compare import default_jobs, rank, run_parallel, summarise_design, table_lines
-    from .studies.sweep import parse_counts, parse_range, sweep_layouts
+    from .studies.compare import default_jobs, rank, table_lines
+    from .studies.sweep import parse_counts, parse_range, run_sweep
 
     inputs = [args.workbook]
     outputs = _output_paths(args, inputs)
@@ -372,19 +405,15 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     design, fit = resolve_soil(read_design(args.workbook))
     if fit is not None:
         log.info("soil fitted once to the Wenner readings for every layout")
-    layouts = sweep_layouts(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0)
+    if len(design.grids) != 1:
+        raise InputError(
+            f"a sweep needs exactly one row on the 'Grids' sheet (this design has {len(design.grids)})",
+            sheet="Grids",
+            fix="Describe the grid to vary as one Grids row; fixed extra conductors may stay on the Conductors sheet",
+        )
     jobs = args.jobs or default_jobs()
-    log.info("sweep: %d layouts in %d worker process(es)", len(layouts), min(jobs, len(layouts)))
-    summaries = run_parallel(summarise_design, [(lay.name, lay.design) for lay in layouts], jobs)
-    for lay, s in zip(layouts, summaries, strict=True):
-        s.extra = {
-            "spacing_target_m": lay.spacing_target_m,
-            "spacing_x_m": lay.spacing_x_m,
-            "spacing_y_m": lay.spacing_y_m,
-            "conductors_along_x": lay.n_along_x,
-            "conductors_along_y": lay.n_along_y,
-            "rods_added": lay.rods_added,
-        }
+    log.info("sweep in %d worker process(es)", jobs)
+    layouts, summaries = run_sweep(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0, jobs)
     ranks = rank(summaries)
     print("\n".join(table_lines(summaries, ranks, first="Layout")))
     best = min((k for k, r in enumerate(ranks) if r), key=lambda k: ranks[k], default=None)
@@ -452,6 +481,10 @@ def _parser() -> argparse.ArgumentParser:
         "--contours", metavar="V,V,...", help="touch-voltage contour levels [V] (default: 25 %% to 200 %% of the limit)"
     )
     r.add_argument("--dxf-units", default="m", choices=("m", "mm", "cm", "ft", "in"), help="unit of the DXF (m)")
+    r.add_argument("--csv", metavar="DIR", help="write the summary, segments, surface raster and profiles as CSV here")
+    r.add_argument(
+        "--results-xlsx", metavar="XLSX", help="write a results workbook (Summary, Segments, Surface, Profiles)"
+    )
     r.set_defaults(func=_cmd_run)
 
     i = sub.add_parser("import", help="write a design workbook from the grid in a DXF drawing")

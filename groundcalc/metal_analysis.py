@@ -143,13 +143,13 @@ def metal_checks(
         touches.append(area_touch(area, potential))
         steps.append(area_step(area, potential))
     profiles = tuple(profile(p, potential) for p in layout.profiles)
-    checks = [Check("touch", t.kind, t.name, t.touch_pu * gpr_v, limits.touch_v, t.location_xy) for t in touches] + [
-        Check("step", s.kind, s.name, s.step_pu * gpr_v, limits.step_v, (s.start_xy, s.end_xy)) for s in steps
-    ]
+    checks = [
+        Check("touch", t.kind, t.name, t.touch_pu * gpr_v, limits.touch_limit_v, t.location_xy) for t in touches
+    ] + [Check("step", s.kind, s.name, s.step_pu * gpr_v, limits.step_limit_v, (s.start_xy, s.end_xy)) for s in steps]
     combined = MetalAssessment(
         assessment.limits,
-        assessment.touch_v,
-        assessment.step_v,
+        assessment.max_touch_v,
+        assessment.max_step_v,
         assessment.conductors_ok,
         tuple(checks),
         not layout.areas_replace_footprint,

@@ -9,6 +9,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # annotation only: the typed overrides live with the code that applies them
+    from .studies.variants import Variant
 
 import numpy as np
 
@@ -31,7 +35,6 @@ __all__ = [
     "Settings",
     "Soil",
     "SurfaceLayer",
-    "Variant",
     "WennerReadings",
 ]
 
@@ -305,30 +308,12 @@ class Settings:
 
 
 @dataclass(frozen=True)
-class Variant:
-    """A named variant of the base case (one row of the Variants sheet).
-
-    Attributes
-    ----------
-    name : str
-        Variant name.
-    overrides : dict
-        Normalised quantity name -> value in SI units.
-    row : int
-        Worksheet row, for messages.
-    columns : dict
-        Normalised quantity name -> column label, for messages.
-    """
-
-    name: str
-    overrides: dict
-    row: int = 0
-    columns: dict = field(default_factory=dict)
-
-
-@dataclass(frozen=True)
 class Design:
-    """Everything needed to analyse one grounding design."""
+    """Everything needed to analyse one grounding design.
+
+    ``variants`` holds :class:`groundcalc.studies.variants.Variant` objects:
+    typed overrides of soil, surface layer and fault run beside the base case.
+    """
 
     project: Project
     soil: Soil

@@ -20,8 +20,8 @@ REQUIRED_KEYS = [
     "decrement_factor",
     "max_touch_v",
     "max_step_v",
-    "tolerable_touch_v",
-    "tolerable_step_v",
+    "touch_limit_v",
+    "step_limit_v",
     "touch_ok",
     "step_ok",
     "segment_count",
@@ -54,8 +54,8 @@ def test_json_is_self_consistent(example_run):
     f = d["fault"]
     assert d["grid_current_a"] == pytest.approx(d["decrement_factor"] * f["split_factor"] * f["fault_current_3i0_a"])
     assert d["gpr_v"] == pytest.approx(d["grid_current_a"] * d["grid_resistance_ohm"])
-    assert d["touch_ok"] == (d["max_touch_v"] <= d["tolerable_touch_v"])
-    assert d["step_ok"] == (d["max_step_v"] <= d["tolerable_step_v"])
+    assert d["touch_ok"] == (d["max_touch_v"] <= d["touch_limit_v"])
+    assert d["step_ok"] == (d["max_step_v"] <= d["step_limit_v"])
     assert 0 < d["max_touch_v"] < d["gpr_v"]
     assert set(d["step_location"]) == {"start", "end"}
     assert len(d["input_sha256"]) == 64
@@ -214,11 +214,11 @@ def test_user_limits_and_undersized_conductor(tmp_path, capsys):
     assert code == 0
     text = capsys.readouterr().out
     d = json.loads((tmp_path / "r.json").read_text())
-    assert d["tolerable_touch_v"] == 2000
+    assert d["touch_limit_v"] == 2000
     assert d["touch_limit_basis"].startswith("user-defined")
     assert d["step_limit_basis"] == "IEEE Std 80"
-    assert d["ieee80_tolerable_touch_v"] < 2000
-    assert d["tolerable_step_v"] == pytest.approx(d["ieee80_tolerable_step_v"])
+    assert d["ieee80_touch_limit_v"] < 2000
+    assert d["step_limit_v"] == pytest.approx(d["ieee80_step_limit_v"])
     assert "user-defined touch limit" in text
     assert d["conductors_ok"] is False and d["passed"] is False
     bad = d["conductor_sizing"]["undersized"]

@@ -119,7 +119,7 @@ def test_fault_current_variants_scale_linearly_without_a_new_solve(tmp_path, mon
         assert double[key] == pytest.approx(2 * base[key], rel=1e-9)
         assert half[key] == pytest.approx(0.5 * base[key], rel=1e-9)
     assert double["grid_resistance_ohm"] == base["grid_resistance_ohm"]
-    assert double["changes"] == {"fault current": 6360.0}
+    assert double["changes"] == {"fault": {"fault_current_a": 6360.0}}
     pdf = " ".join(pg.extract_text() for pg in PdfReader(tmp_path / "v.pdf").pages)
     assert "Variants" in pdf and "double" in pdf
 
@@ -141,7 +141,7 @@ def test_soil_variant_solves_again_and_surface_variant_does_not(tmp_path):
     base, dry, rock, two = d["variants"]
     assert dry["grid_resistance_ohm"] == pytest.approx(2 * base["grid_resistance_ohm"], rel=1e-9)
     assert rock["grid_resistance_ohm"] == base["grid_resistance_ohm"]
-    assert rock["tolerable_touch_v"] > base["tolerable_touch_v"]  # thicker rock: larger Cs (Eq. 27)
+    assert rock["touch_limit_v"] > base["touch_limit_v"]  # thicker rock: larger Cs (Eq. 27)
     assert two["grid_resistance_ohm"] < base["grid_resistance_ohm"]  # wet clay below lowers Rg
 
 
@@ -153,7 +153,11 @@ def test_soil_variant_solves_again_and_surface_variant_does_not(tmp_path):
             ["Variant", "Fault curent [A]"],
             ["'Fault curent [A]'", "row 1", "not a quantity a variant can change"],
         ),
-        ([{"Variant": "x", "Upper thickness [m]": 3}], None, ["row 2", "only one of 'Upper thickness'"]),
+        (
+            [{"Variant": "x", "Upper thickness [m]": 3}],
+            None,
+            ["row 2", "column 'Upper thickness [m]'", "only one of the upper thickness"],
+        ),
         ([{"Variant": "x", "Body weight [kg]": 60}], None, ["row 2", "50 or 70"]),
         ([{"Variant": "x", "Split factor": 1.5}], None, ["row 2", "at most 1"]),
         ([{"Variant": "x"}, {"Variant": "y", "Split factor": 0.5}], None, ["row 2", "changes nothing"]),

@@ -38,7 +38,7 @@ def results():
     # footprint, so that only part of it is exceeded (the corner meshes).
     t = touch_field_v(res)[res.field.raster.touch_mask]
     limit = float(np.min(t) + 0.7 * (np.max(t) - np.min(t)))
-    return replace(res, limits=replace(res.limits, touch_v=limit))
+    return replace(res, limits=replace(res.limits, touch_limit_v=limit))
 
 
 def layer(doc, key, kind=None):
@@ -84,7 +84,7 @@ def test_contours_lie_on_the_iso_level(results, drawing):
         dists.append(np.abs(t - lv) / np.hypot(tx, ty))
     assert np.median(np.concatenate(dists)) < 0.05 * h  # linear interpolation in the cells
     tmin, tmax = float(touch_field_v(results).min()), float(touch_field_v(results).max())
-    assert levels == {lv for lv in default_levels(results.limits.touch_v) if tmin < lv < tmax}
+    assert levels == {lv for lv in default_levels(results.limits.touch_limit_v) if tmin < lv < tmax}
 
 
 def test_contours_are_labelled_in_volts(results, drawing):
@@ -99,7 +99,7 @@ def test_exceeded_areas_are_closed_and_hatched(results, drawing):
     # (away from the touch-area edge, where the area follows the raster cells) are inside one.
     doc, _ = drawing
     r = results.field.raster
-    limit = results.limits.touch_v
+    limit = results.limits.touch_limit_v
     rings = [np.array([(p[0], p[1]) for p in pl.get_points("xy")]) for pl in layer(doc, "exceeded", "LWPOLYLINE")]
     hatches = layer(doc, "exceeded", "HATCH")
     assert rings and hatches

@@ -3,6 +3,7 @@
 import importlib.util
 
 import openpyxl
+import pytest
 
 from groundcalc.analysis import analyse
 from groundcalc.io.workbook import read_design
@@ -54,3 +55,26 @@ def test_fence_example_script_reproduces_the_shipped_workbooks_and_they_read(tmp
         groups = {g.name: g.bonded for g in metal.groups}
         assert groups == {"Water main": False, "Perimeter": bonded, "Paddock": False}
         assert any(r.gate_swing_m for r in metal.fences)
+
+
+def test_api_example_runs_and_its_numbers_check_out(capsys):
+    import math
+
+    spec = importlib.util.spec_from_file_location("api_example", ROOT / "examples" / "api_example.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    res = mod.main(segment_length_m=4.0, raster_spacing_m=1.0)  # coarse, so the test is quick
+    out = capsys.readouterr().out
+    assert "Grid resistance" in out and "leakage_density_a_per_m" in out and "future fault level" in out
+    assert "Wrenfield Lane" in mod.build_design().project.project
+    # IEEE Std 80-2000 Eq. 79: Df = sqrt(1 + Ta/tf (1 - exp(-2 tf/Ta))), Ta = (X/R) / (2 pi f); X/R = 12,
+    # 50 Hz, tf = 0.4 s. I_G = Df Sf 3I0 (Eq. 64) with Sf = 0.5, 3I0 = 6000 A.
+    ta = 12.0 / (2 * math.pi * 50.0)
+    df = math.sqrt(1 + ta / 0.4 * (1 - math.exp(-2 * 0.4 / ta)))
+    assert res.decrement_factor == pytest.approx(df, rel=1e-12)
+    assert res.grid_current_a == pytest.approx(df * 0.5 * 6000.0, rel=1e-12)
+    # Sverak, IEEE Std 80-2000 Eq. 52, with LT = 9 x 40 m + 11 x 30 m + 4 x 6 m rods, A = 1200 m2, h = 0.6 m
+    lt, area, h = 9 * 40.0 + 11 * 30.0 + 4 * 6.0, 1200.0, 0.6
+    sverak = 150.0 * (1 / lt + 1 / math.sqrt(20 * area) * (1 + 1 / (1 + h * math.sqrt(20 / area))))
+    assert res.sverak_resistance_ohm == pytest.approx(sverak, rel=1e-9)
+    assert res.gpr_v == pytest.approx(res.grid_current_a * res.resistance_ohm, rel=1e-12)

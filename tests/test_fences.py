@@ -179,14 +179,14 @@ def test_verdict_counts_every_check_and_check_areas_may_replace_the_footprint(bo
     from groundcalc.safety.checks import Check, MetalAssessment
 
     lim = bonded.limits
-    ok_check = Check("touch", "area", "yard", 0.5 * lim.touch_v, lim.touch_v, (0.0, 0.0))
-    bad_check = Check("step", "area", "yard", 1.2 * lim.step_v, lim.step_v, ((0.0, 0.0), (1.0, 0.0)))
-    high_touch = 1.1 * lim.touch_v  # the footprint fails
-    counted = MetalAssessment(lim, high_touch, 0.1 * lim.step_v, True, (ok_check,), True)
-    replaced = MetalAssessment(lim, high_touch, 0.1 * lim.step_v, True, (ok_check,), False)
+    ok_check = Check("touch", "area", "yard", 0.5 * lim.touch_limit_v, lim.touch_limit_v, (0.0, 0.0))
+    bad_check = Check("step", "area", "yard", 1.2 * lim.step_limit_v, lim.step_limit_v, ((0.0, 0.0), (1.0, 0.0)))
+    high_touch = 1.1 * lim.touch_limit_v  # the footprint fails
+    counted = MetalAssessment(lim, high_touch, 0.1 * lim.step_limit_v, True, (ok_check,), True)
+    replaced = MetalAssessment(lim, high_touch, 0.1 * lim.step_limit_v, True, (ok_check,), False)
     assert not counted.passed and counted.governing == "touch"
     assert replaced.passed and replaced.governing == "touch at area 'yard'"
-    failing = MetalAssessment(lim, 0.1 * lim.touch_v, 0.1 * lim.step_v, True, (ok_check, bad_check), True)
+    failing = MetalAssessment(lim, 0.1 * lim.touch_limit_v, 0.1 * lim.step_limit_v, True, (ok_check, bad_check), True)
     assert not failing.passed and failing.governing == "step at area 'yard'"
     assert failing.governing_margin_pct == pytest.approx(-20.0)
 

@@ -7,9 +7,9 @@ import pytest
 from groundcalc.safety.ieee80 import (
     decrement_factor,
     grid_current_a,
+    step_limit_v,
     surface_layer_factor,
-    tolerable_step_v,
-    tolerable_touch_v,
+    touch_limit_v,
 )
 
 
@@ -23,29 +23,29 @@ def test_cs_annex_b():
 
 def test_tolerable_touch_annex_b_70kg():
     # IEEE Std 80-2000 Annex B: E_touch70 = 838.2 V with Cs = 0.74 [doc]; Eq. (33).
-    assert tolerable_touch_v(0.74, 2500.0, 0.5, 70) == pytest.approx(838.2, abs=0.05)
+    assert touch_limit_v(0.74, 2500.0, 0.5, 70) == pytest.approx(838.2, abs=0.05)
     # With the unrounded Cs: 840.5 V [calc, REFERENCES.md].
     cs = surface_layer_factor(400.0, 2500.0, 0.102)
-    assert tolerable_touch_v(cs, 2500.0, 0.5, 70) == pytest.approx(840.5, abs=0.1)
+    assert touch_limit_v(cs, 2500.0, 0.5, 70) == pytest.approx(840.5, abs=0.1)
 
 
 def test_tolerable_step_annex_b_70kg():
     # IEEE Std 80-2000 Annex B: E_step70 = 2686.6 V with Cs = 0.74 [mem/calc]; Eq. (30).
-    assert tolerable_step_v(0.74, 2500.0, 0.5, 70) == pytest.approx(2686.6, abs=0.1)
+    assert step_limit_v(0.74, 2500.0, 0.5, 70) == pytest.approx(2686.6, abs=0.1)
     cs = surface_layer_factor(400.0, 2500.0, 0.102)
-    assert tolerable_step_v(cs, 2500.0, 0.5, 70) == pytest.approx(2696.1, abs=0.1)
+    assert step_limit_v(cs, 2500.0, 0.5, 70) == pytest.approx(2696.1, abs=0.1)
 
 
 def test_50kg_limits_use_k_0116():
     # IEEE Std 80-2000 Eqs. (29), (32): k = 0.116 for 50 kg. Bare soil 100 ohm*m, 1 s:
     # touch = (1000 + 150) * 0.116 = 133.4 V; step = (1000 + 600) * 0.116 = 185.6 V [calc].
-    assert tolerable_touch_v(1.0, 100.0, 1.0, 50) == pytest.approx(133.4, abs=1e-9)
-    assert tolerable_step_v(1.0, 100.0, 1.0, 50) == pytest.approx(185.6, abs=1e-9)
+    assert touch_limit_v(1.0, 100.0, 1.0, 50) == pytest.approx(133.4, abs=1e-9)
+    assert step_limit_v(1.0, 100.0, 1.0, 50) == pytest.approx(185.6, abs=1e-9)
 
 
 def test_body_weight_other_than_50_or_70_is_refused():
     with pytest.raises(ValueError):
-        tolerable_touch_v(1.0, 100.0, 1.0, 60)
+        touch_limit_v(1.0, 100.0, 1.0, 60)
 
 
 @pytest.mark.parametrize(

@@ -34,8 +34,8 @@ def test_report_numbers_match_the_json(report):
     assert f"{d['gpr_v']:,.0f} V" in text
     assert f"{d['grid_current_a']:,.0f} A" in text
     # summary table: computed touch and step, and their tolerable values
-    assert f"Touch voltage [V] {d['max_touch_v']:.4g} {d['tolerable_touch_v']:.4g}" in text
-    assert f"Step voltage [V] {d['max_step_v']:.4g} {d['tolerable_step_v']:.4g}" in text
+    assert f"Touch voltage [V] {d['max_touch_v']:.4g} {d['touch_limit_v']:.4g}" in text
+    assert f"Step voltage [V] {d['max_step_v']:.4g} {d['step_limit_v']:.4g}" in text
     assert f"max touch {d['max_touch_v']:,.0f} V" in text  # label on the plan
     assert "PASS" in pages[0] or "FAIL" in pages[0]
 

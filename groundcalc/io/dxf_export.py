@@ -198,7 +198,7 @@ def build_results_dxf(results, levels: list[float] | None = None, units: str = "
         return (float(p[0]) * k, float(p[1]) * k)
 
     raster = results.field.raster
-    limit = results.limits.touch_v
+    limit = results.limits.touch_limit_v
     levels = list(levels) if levels else default_levels(limit)
     touch_v = touch_field_v(results)
     extent_m = float(max(raster.x[-1] - raster.x[0], raster.y[-1] - raster.y[0]))
@@ -271,7 +271,7 @@ def build_results_dxf(results, levels: list[float] | None = None, units: str = "
     add(msp.add_line(pt(st.start_xy), pt(st.end_xy), dxfattribs=lay["step"]), "step")
     t = add(
         msp.add_text(
-            f"worst step {results.max_step_v:.0f} V over 1 m (tolerable {results.limits.step_v:.0f} V)",
+            f"worst step {results.max_step_v:.0f} V over 1 m (tolerable {results.limits.step_limit_v:.0f} V)",
             height=h,
             dxfattribs=lay["step"],
         ),
@@ -282,7 +282,7 @@ def build_results_dxf(results, levels: list[float] | None = None, units: str = "
     notes = [
         f"groundcalc results: {DRAFT_MARK}",
         f"GPR {results.gpr_v:.0f} V, grid resistance {results.resistance_ohm:.4g} ohm; tolerable touch "
-        f"{limit:.0f} V, step {results.limits.step_v:.0f} V ({results.limits.basis})",
+        f"{limit:.0f} V, step {results.limits.step_limit_v:.0f} V ({results.limits.basis})",
         "Contours (green): touch voltage = GPR - surface potential, in volts, at "
         + ", ".join(f"{lv:.0f}" for lv in levels)
         + " V",

@@ -146,8 +146,8 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
         "max_touch_v": results.max_touch_v,
         "max_step_v": results.max_step_v,
         "surface_layer_factor_cs": results.limits.cs,
-        "tolerable_touch_v": results.limits.touch_v,
-        "tolerable_step_v": results.limits.step_v,
+        "touch_limit_v": results.limits.touch_limit_v,
+        "step_limit_v": results.limits.step_limit_v,
         "limits_basis": results.limits.basis,
         "touch_ok": a.touch_ok,
         "step_ok": a.step_ok,
@@ -176,8 +176,8 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
     out["conductors_ok"] = a.conductors_ok
     out["touch_limit_basis"] = results.limits.touch_basis
     out["step_limit_basis"] = results.limits.step_basis
-    out["ieee80_tolerable_touch_v"] = results.limits.ieee_touch_v
-    out["ieee80_tolerable_step_v"] = results.limits.ieee_step_v
+    out["ieee80_touch_limit_v"] = results.limits.ieee80_touch_limit_v
+    out["ieee80_step_limit_v"] = results.limits.ieee80_step_limit_v
     out["closed_form"] = closed_form_to_dict(results)
     out["conductor_sizing"] = sizing_to_dict(results.sizing)
     g = sol.greens

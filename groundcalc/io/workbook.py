@@ -13,7 +13,7 @@ import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import openpyxl
 from openpyxl.utils import get_column_letter
@@ -31,13 +31,15 @@ from ..model import (
     Settings,
     Soil,
     SurfaceLayer,
-    Variant,
     WennerReadings,
 )
 from ..safety.materials import DEFAULT_MATERIAL, MATERIALS, material
 from ..soil.wenner import wenner_apparent_resistivity
 from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, VARIANTS, WENNER, Field, SheetSpec
 from .units import UNITS, normalise_name, split_header, to_si
+
+if TYPE_CHECKING:
+    from ..studies.variants import Variant
 
 __all__ = ["MAX_TABLE_ROWS", "open_workbook", "read_design", "read_keyvalue", "read_table", "read_wenner"]
 
@@ -852,8 +854,35 @@ def _read_wenner(wb) -> WennerReadings | None:
     return WennerReadings(tuple(spacing), tuple(rho), tuple(where), WENNER.name)
 
 
-def _read_variants(wb) -> list[Variant]:
-    """Rows of the optional Variants sheet; any column it does not know is an error."""
+#: Variants sheet column -> (group, field) of :class:`~groundcalc.studies.variants.Variant`.
+VARIANT_COLUMNS = {
+    "upper resistivity": ("soil", "rho1_ohm_m"),
+    "upper thickness": ("soil", "thickness_m"),
+    "lower resistivity": ("soil", "rho2_ohm_m"),
+    "surface layer resistivity": ("surface_layer", "rho_ohm_m"),
+    "surface layer thickness": ("surface_layer", "thickness_m"),
+    "fault current": ("fault", "fault_current_a"),
+    "split factor": ("fault", "split_factor"),
+    "fault duration": ("fault", "fault_duration_s"),
+    "body weight": ("fault", "body_weight_kg"),
+}
+
+
+def _read_variants(wb, base: Design) -> list[Variant]:
+    """Rows of the optional Variants sheet as typed overrides; any column it does not know is an error.
+
+    Each variant is applied to ``base`` once here, so that an inconsistent
+    row is reported with its sheet, row and column.
+    """
+    from ..studies.variants import (
+        FaultOverride,
+        SoilOverride,
+        SurfaceLayerOverride,
+        Variant,
+        VariantError,
+        apply_variant,
+    )
+
     ws = _find_sheet(wb, VARIANTS.name)
     if ws is None:
         return []
@@ -890,15 +919,15 @@ def _read_variants(wb) -> list[Variant]:
                 fix="Give every variant its own name",
             )
         seen[name.lower()] = row or 0
-        overrides = {}
-        columns = {}
+        overrides: dict[tuple[str, str], float] = {}
+        columns: dict[tuple[str, str], str] = {}
         for key, f in fields.items():
             if key == "variant" or key not in cells:
                 continue
             v = value(cells, f)
             if v is not None:
-                overrides[key] = float(v)
-                columns[key] = cells[key].column
+                overrides[VARIANT_COLUMNS[key]] = float(v)
+                columns[VARIANT_COLUMNS[key]] = cells[key].column
         if not overrides:
             c = cells["variant"]
             raise InputError(
@@ -908,9 +937,22 @@ def _read_variants(wb) -> list[Variant]:
                 column=c.column,
                 fix="Fill in at least one quantity to change, or delete the row",
             )
-        if "body weight" in overrides:
-            _check_body_weight(overrides["body weight"], cells["body weight"])
-        out.append(Variant(name, overrides, row or 0, columns))
+        if ("fault", "body_weight_kg") in overrides:
+            _check_body_weight(overrides[("fault", "body_weight_kg")], cells["body weight"])
+        groups: dict[str, dict[str, float]] = {"soil": {}, "surface_layer": {}, "fault": {}}
+        for (group, name_), v in overrides.items():
+            groups[group][name_] = v
+        variant = Variant(
+            name,
+            SoilOverride(**groups["soil"]),
+            SurfaceLayerOverride(**groups["surface_layer"]),
+            FaultOverride(**groups["fault"]),
+        )
+        try:
+            apply_variant(base, variant)
+        except VariantError as exc:
+            raise InputError(exc.problem, sheet=ws.title, row=row, column=columns.get(exc.field), fix=exc.fix) from None
+        out.append(variant)
     return out
 
 
@@ -1022,7 +1064,8 @@ def read_design(path: str | Path) -> Design:
         _check_temperature(
             wb, fault, {c.material for c in conductors} | {r.material for r in rods} | {g.material for g in grids}
         )
-        variants = _read_variants(wb)
+        base = Design(project, soil, surface, fault, (), (), settings=settings)
+        variants = _read_variants(wb, base)
         wenner = _read_wenner(wb) if soil.model == "fitted" else None
         if soil.model == "fitted" and wenner is None:
             raise InputError(

@@ -48,8 +48,8 @@ def summary_table(summaries: Sequence[DesignSummary], ranks: Sequence[int | None
                 Paragraph(s.name, SMALL),
                 f"{s.resistance_ohm:.4g}",
                 f"{s.gpr_v:,.0f}",
-                f"{s.touch_v:,.0f} / {s.touch_limit_v:,.0f} ({s.touch_margin_pct:+.0f} %)",
-                f"{s.step_v:,.0f} / {s.step_limit_v:,.0f} ({s.step_margin_pct:+.0f} %)",
+                f"{s.max_touch_v:,.0f} / {s.touch_limit_v:,.0f} ({s.touch_margin_pct:+.0f} %)",
+                f"{s.max_step_v:,.0f} / {s.step_limit_v:,.0f} ({s.step_margin_pct:+.0f} %)",
                 f"{s.conductor_length_m:,.0f}",
                 f"{s.rod_count}, {s.rod_length_m:,.0f}",
                 f"{s.mass_kg:,.0f}",
@@ -71,7 +71,7 @@ def _mini_plan(s: DesignSummary, width: float, height: float) -> list:
     fig = PlanFigure(width, height, (lo[0] - pad, hi[0] + pad, lo[1] - pad, hi[1] + pad))
     fig.lines = s.lines
     fig.rods = s.rods_xy
-    fig.markers = [Marker(s.touch_xy, f"touch {s.touch_v:,.0f} V")]
+    fig.markers = [Marker(s.touch_xy, f"touch {s.max_touch_v:,.0f} V")]
     return [Paragraph(f"<b>{s.name}</b> - {'PASS' if s.passed else 'FAIL'}", SMALL), fig]
 
 
@@ -123,11 +123,11 @@ def write_comparison_report(
 
 
 def variants_section(
-    names: Sequence[str], summaries: Sequence[DesignSummary], overrides: Sequence[dict], solves: int
+    names: Sequence[str], summaries: Sequence[DesignSummary], changes: Sequence[str], solves: int
 ) -> list:
     """Variants table for the main report."""
-    changed = [", ".join(f"{k} {v:g}" for k, v in o.items()) or "-" for o in overrides]
-    rows = [["Case", "Changes (SI units)", "Rg [ohm]", "GPR [V]", "Touch / limit [V]", "Step / limit [V]", "Result"]]
+    changed = list(changes)
+    rows = [["Case", "Changes", "Rg [ohm]", "GPR [V]", "Touch / limit [V]", "Step / limit [V]", "Result"]]
     for n, s, c in zip(names, summaries, changed, strict=True):
         rows.append(
             [
@@ -135,8 +135,8 @@ def variants_section(
                 Paragraph(c, SMALL),
                 f"{s.resistance_ohm:.4g}",
                 f"{s.gpr_v:,.0f}",
-                f"{s.touch_v:,.0f} / {s.touch_limit_v:,.0f}",
-                f"{s.step_v:,.0f} / {s.step_limit_v:,.0f}",
+                f"{s.max_touch_v:,.0f} / {s.touch_limit_v:,.0f}",
+                f"{s.max_step_v:,.0f} / {s.step_limit_v:,.0f}",
                 "PASS" if s.passed else f"FAIL ({s.governing})",
             ]
         )

@@ -84,7 +84,7 @@ def map_arrays(results: Results) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     r = results.field.raster
     pot = r.potential_v * results.gpr_v
     touch = np.where(r.touch_mask, results.gpr_v - pot, np.nan)
-    exceed = r.touch_mask & (results.gpr_v - pot > results.limits.touch_v)
+    exceed = r.touch_mask & (results.gpr_v - pot > results.limits.touch_limit_v)
     return pot, touch, exceed
 
 
@@ -104,10 +104,10 @@ def potential_figure(results: Results, style, max_height: float = 115 * mm) -> l
         f"raster ({pot.shape[1]} x {pot.shape[0]} points). "
         + (
             "Hatching: inside the footprint, where the touch voltage exceeds the tolerable "
-            f"{results.limits.touch_v:,.0f} V."
+            f"{results.limits.touch_limit_v:,.0f} V."
             if exceed.any()
             else "Nowhere inside the footprint does the touch voltage exceed the tolerable "
-            f"{results.limits.touch_v:,.0f} V (there would be hatching)."
+            f"{results.limits.touch_limit_v:,.0f} V (there would be hatching)."
         )
     )
     return [fig, Spacer(1, 2), _caption(text, style)]
@@ -118,7 +118,7 @@ def touch_figure(results: Results, style, max_height: float = 115 * mm) -> list:
     _, touch, exceed = map_arrays(results)
     lo = 0.0
     hi = float(np.nanmax(touch)) if np.isfinite(touch).any() else 1.0
-    limit = results.limits.touch_v
+    limit = results.limits.touch_limit_v
     fig = _figure(results, _raster_extent(results), max_height)
     fig.image = map_image(touch, lo, hi, hatch=exceed)
     fig.image_extent = _raster_extent(results)
@@ -159,7 +159,7 @@ def touch_profile(results: Results, style) -> list:
     sol = results.geometry.solution
     v = surface_potential(pts, sol, results.gpr_v)
     x = pts[:, 0]
-    floor = results.gpr_v - results.limits.touch_v
+    floor = results.gpr_v - results.limits.touch_limit_v
     series = [Series(x, v, "surface potential", POTENTIAL_COLOUR, "line")]
     chart = line_chart(
         series,
@@ -192,7 +192,7 @@ def step_profile(results: Results, style) -> list:
     v0 = surface_potential(pts, sol, results.gpr_v)
     v1 = surface_potential(pts + u, sol, results.gpr_v)
     step = np.abs(v0 - v1)
-    limit = results.limits.step_v
+    limit = results.limits.step_limit_v
     top = max(float(step.max()), results.max_step_v) * 1.1
     hl = [(limit, f"tolerable step {limit:,.0f} V", LIMIT_COLOUR)] if limit <= top * 1.5 else []
     chart = line_chart(

@@ -203,7 +203,7 @@ def _profiles(results: Results) -> list:
             55 * mm,
             "distance along the profile [m]",
             "voltage [V]",
-            hlines=[(results.limits.touch_v, "tolerable touch", colors.HexColor("#b2182b"))],
+            hlines=[(results.limits.touch_limit_v, "tolerable touch", colors.HexColor("#b2182b"))],
         )
         cap = (
             f"Profile '{p.label}' from ({p.start[0]:g}, {p.start[1]:g}) to ({p.end[0]:g}, {p.end[1]:g}) m: "

@@ -69,14 +69,14 @@ def summary(results: Results) -> list:
         [
             "Touch voltage [V]",
             fmt(results.max_touch_v),
-            fmt(lim.touch_v),
+            fmt(lim.touch_limit_v),
             f"{a.touch_margin_pct:+.1f}",
             Paragraph(verdict(a.touch_ok), BODY),
         ],
         [
             "Step voltage [V]",
             fmt(results.max_step_v),
-            fmt(lim.step_v),
+            fmt(lim.step_limit_v),
             f"{a.step_margin_pct:+.1f}",
             Paragraph(verdict(a.step_ok), BODY),
         ],
@@ -96,8 +96,8 @@ def summary(results: Results) -> list:
     basis = f"Tolerable voltages: {lim.basis}, Cs = {lim.cs:.4f}."
     if lim.touch_user or lim.step_user:
         basis += (
-            f" <b>User-defined limits replace IEEE Std 80</b> (IEEE Std 80 values: touch {lim.ieee_touch_v:.1f} V, "
-            f"step {lim.ieee_step_v:.1f} V)."
+            f" <b>User-defined limits replace IEEE Std 80</b> (IEEE Std 80 values: "
+            f"touch {lim.ieee80_touch_limit_v:.1f} V, step {lim.ieee80_step_limit_v:.1f} V)."
         )
     key = [
         ["Quantity", "Value"],
@@ -348,7 +348,7 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
     sha256 : str
         SHA-256 of the input workbook.
     variants : tuple, optional
-        ``(names, summaries, overrides, geometry_solves)`` of the Variants
+        ``(names, summaries, changes, geometry_solves)`` of the Variants
         sheet, shown after the summary.
     """
     doc = SimpleDocTemplate(

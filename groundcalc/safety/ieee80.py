@@ -28,8 +28,8 @@ __all__ = [
     "step_voltage",
     "surface_layer_factor",
     "sverak_resistance",
-    "tolerable_step_v",
-    "tolerable_touch_v",
+    "step_limit_v",
+    "touch_limit_v",
 ]
 
 #: Body-current constant k = sqrt(S_B) for 50 kg and 70 kg body weight, IEEE Std 80-2000,
@@ -74,7 +74,7 @@ def _body_k(body_weight_kg: float) -> float:
     return BODY_CONSTANT[key]
 
 
-def tolerable_touch_v(cs: float, rho_surface_ohm_m: float, shock_duration_s: float, body_weight_kg: float) -> float:
+def touch_limit_v(cs: float, rho_surface_ohm_m: float, shock_duration_s: float, body_weight_kg: float) -> float:
     """Tolerable touch voltage.
 
     Parameters
@@ -105,10 +105,10 @@ def tolerable_touch_v(cs: float, rho_surface_ohm_m: float, shock_duration_s: flo
     return (1000.0 + 1.5 * cs * rho_surface_ohm_m) * _body_k(body_weight_kg) / math.sqrt(shock_duration_s)
 
 
-def tolerable_step_v(cs: float, rho_surface_ohm_m: float, shock_duration_s: float, body_weight_kg: float) -> float:
+def step_limit_v(cs: float, rho_surface_ohm_m: float, shock_duration_s: float, body_weight_kg: float) -> float:
     """Tolerable step voltage.
 
-    Parameters are those of :func:`tolerable_touch_v`.
+    Parameters are those of :func:`touch_limit_v`.
 
     Returns
     -------

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..model import Fault, Soil, SurfaceLayer
-from .ieee80 import surface_layer_factor, tolerable_step_v, tolerable_touch_v
+from .ieee80 import step_limit_v, surface_layer_factor, touch_limit_v
 
 __all__ = ["Assessment", "Limits", "assess", "tolerable_limits"]
 
@@ -20,15 +20,15 @@ class Limits:
         Surface layer derating factor (1 without a surface layer).
     rho_surface_ohm_m : float
         Resistivity under the feet used in the body-circuit formulas. [ohm*m]
-    touch_v, step_v : float
-        Tolerable touch and step voltages. [V]
+    touch_limit_v, step_limit_v : float
+        Tolerable touch and step voltages applied (IEEE Std 80 or user-defined). [V]
     body_weight_kg : float
         Body weight. [kg]
     shock_duration_s : float
         Shock duration. [s]
     basis : str
         Where the limits come from.
-    ieee_touch_v, ieee_step_v : float
+    ieee80_touch_limit_v, ieee80_step_limit_v : float
         The IEEE Std 80 values, shown beside user-defined limits. [V]
     touch_user, step_user : bool
         Whether each limit was entered by the user (not IEEE Std 80).
@@ -36,13 +36,13 @@ class Limits:
 
     cs: float
     rho_surface_ohm_m: float
-    touch_v: float
-    step_v: float
+    touch_limit_v: float
+    step_limit_v: float
     body_weight_kg: float
     shock_duration_s: float
     basis: str
-    ieee_touch_v: float = 0.0
-    ieee_step_v: float = 0.0
+    ieee80_touch_limit_v: float = 0.0
+    ieee80_step_limit_v: float = 0.0
     touch_user: bool = False
     step_user: bool = False
 
@@ -86,7 +86,7 @@ def tolerable_limits(soil: Soil, surface: SurfaceLayer | None, fault: Fault) -> 
         cs = surface_layer_factor(soil.rho1_ohm_m, surface.rho_ohm_m, surface.thickness_m)
         rho_s = surface.rho_ohm_m
     args = (cs, rho_s, fault.shock_duration_s, fault.body_weight_kg)
-    touch, step = tolerable_touch_v(*args), tolerable_step_v(*args)
+    touch, step = touch_limit_v(*args), step_limit_v(*args)
     basis = f"IEEE Std 80, {fault.body_weight_kg:.0f} kg body, ts = {fault.shock_duration_s:g} s"
     user_t, user_s = fault.touch_limit_v is not None, fault.step_limit_v is not None
     if user_t and user_s:
@@ -117,19 +117,19 @@ class Assessment:
     """
 
     limits: Limits
-    touch_v: float
-    step_v: float
+    max_touch_v: float
+    max_step_v: float
     conductors_ok: bool = True
 
     @property
     def touch_ok(self) -> bool:
         """True when the touch voltage does not exceed its limit."""
-        return self.touch_v <= self.limits.touch_v
+        return self.max_touch_v <= self.limits.touch_limit_v
 
     @property
     def step_ok(self) -> bool:
         """True when the step voltage does not exceed its limit."""
-        return self.step_v <= self.limits.step_v
+        return self.max_step_v <= self.limits.step_limit_v
 
     @property
     def passed(self) -> bool:
@@ -139,12 +139,12 @@ class Assessment:
     @property
     def touch_margin_pct(self) -> float:
         """Touch margin. [%]"""
-        return 100.0 * (self.limits.touch_v - self.touch_v) / self.limits.touch_v
+        return 100.0 * (self.limits.touch_limit_v - self.max_touch_v) / self.limits.touch_limit_v
 
     @property
     def step_margin_pct(self) -> float:
         """Step margin. [%]"""
-        return 100.0 * (self.limits.step_v - self.step_v) / self.limits.step_v
+        return 100.0 * (self.limits.step_limit_v - self.max_step_v) / self.limits.step_limit_v
 
     @property
     def governing(self) -> str:
@@ -157,6 +157,6 @@ class Assessment:
         return min(self.touch_margin_pct, self.step_margin_pct)
 
 
-def assess(limits: Limits, touch_v: float, step_v: float, conductors_ok: bool = True) -> Assessment:
+def assess(limits: Limits, max_touch_v: float, max_step_v: float, conductors_ok: bool = True) -> Assessment:
     """Compare computed touch and step voltages with the limits (and carry the sizing verdict)."""
-    return Assessment(limits, touch_v, step_v, conductors_ok)
+    return Assessment(limits, max_touch_v, max_step_v, conductors_ok)

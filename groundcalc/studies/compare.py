@@ -39,10 +39,10 @@ class DesignSummary:
     resistance_ohm: float = math.nan
     grid_current_a: float = math.nan
     gpr_v: float = math.nan
-    touch_v: float = math.nan
+    max_touch_v: float = math.nan
     touch_limit_v: float = math.nan
     touch_margin_pct: float = math.nan
-    step_v: float = math.nan
+    max_step_v: float = math.nan
     step_limit_v: float = math.nan
     step_margin_pct: float = math.nan
     conductors_ok: bool = False
@@ -71,11 +71,11 @@ class DesignSummary:
             "grid_resistance_ohm": self.resistance_ohm,
             "grid_current_a": self.grid_current_a,
             "gpr_v": self.gpr_v,
-            "max_touch_v": self.touch_v,
-            "tolerable_touch_v": self.touch_limit_v,
+            "max_touch_v": self.max_touch_v,
+            "touch_limit_v": self.touch_limit_v,
             "touch_margin_pct": self.touch_margin_pct,
-            "max_step_v": self.step_v,
-            "tolerable_step_v": self.step_limit_v,
+            "max_step_v": self.max_step_v,
+            "step_limit_v": self.step_limit_v,
             "step_margin_pct": self.step_margin_pct,
             "conductors_ok": self.conductors_ok,
             "passed": self.passed,
@@ -119,11 +119,11 @@ def summarise(results: Results, name: str, source: str = "") -> DesignSummary:
         resistance_ohm=results.resistance_ohm,
         grid_current_a=results.grid_current_a,
         gpr_v=results.gpr_v,
-        touch_v=results.max_touch_v,
-        touch_limit_v=results.limits.touch_v,
+        max_touch_v=results.max_touch_v,
+        touch_limit_v=results.limits.touch_limit_v,
         touch_margin_pct=a.touch_margin_pct,
-        step_v=results.max_step_v,
-        step_limit_v=results.limits.step_v,
+        max_step_v=results.max_step_v,
+        step_limit_v=results.limits.step_limit_v,
         step_margin_pct=a.step_margin_pct,
         conductors_ok=a.conductors_ok,
         passed=a.passed,
@@ -215,8 +215,8 @@ def table_lines(summaries: Sequence[DesignSummary], ranks: Sequence[int | None],
             lines.append(f"{s.name[:w]:<{w}s} ERROR: {s.error}")
             continue
         lines.append(
-            f"{s.name[:w]:<{w}s} {s.resistance_ohm:9.4g} {s.gpr_v:9.0f} {s.touch_v:10.1f} {s.touch_limit_v:7.0f} "
-            f"{s.touch_margin_pct:+6.1f}% {s.step_v:9.1f} {s.step_limit_v:7.0f} {s.step_margin_pct:+6.1f}% "
+            f"{s.name[:w]:<{w}s} {s.resistance_ohm:9.4g} {s.gpr_v:9.0f} {s.max_touch_v:10.1f} {s.touch_limit_v:7.0f} "
+            f"{s.touch_margin_pct:+6.1f}% {s.max_step_v:9.1f} {s.step_limit_v:7.0f} {s.step_margin_pct:+6.1f}% "
             f"{s.conductor_length_m:7.0f} {s.rod_count:4d} {s.rod_length_m:6.0f} {s.mass_kg:9.0f}  "
             f"{'PASS' if s.passed else 'FAIL':<6s} {s.governing:<9s} {r if r else '-':>4}"
         )

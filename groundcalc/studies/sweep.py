@@ -14,7 +14,7 @@ from dataclasses import dataclass, replace
 from ..errors import InputError
 from ..model import Design, GridSpec, Rod
 
-__all__ = ["SweepLayout", "parse_counts", "parse_range", "perimeter_rods", "sweep_layouts"]
+__all__ = ["SweepLayout", "parse_counts", "parse_range", "perimeter_rods", "run_sweep", "sweep_layouts"]
 
 #: Largest number of layouts one sweep may try.
 MAX_LAYOUTS = 400
@@ -110,9 +110,8 @@ def sweep_layouts(
     """
     if len(design.grids) != 1:
         raise InputError(
-            f"a sweep needs exactly one row on the 'Grids' sheet (this design has {len(design.grids)})",
-            sheet="Grids",
-            fix="Describe the grid to vary as one Grids row; fixed extra conductors may stay on the Conductors sheet",
+            f"a sweep needs exactly one rectangular grid generator (this design has {len(design.grids)})",
+            fix="Describe the grid to vary as one GridSpec; fixed extra conductors may stay as Conductors",
         )
     if len(spacings_m) * len(rod_counts) > MAX_LAYOUTS:
         raise InputError(
@@ -122,7 +121,7 @@ def sweep_layouts(
     g = design.grids[0]
     if min(spacings_m) < MIN_SPACING_M:
         raise InputError(
-            f"--spacing {min(spacings_m):g} m is closer than {MIN_SPACING_M:g} m",
+            f"a spacing of {min(spacings_m):g} m is closer than {MIN_SPACING_M:g} m",
             fix=f"Use spacings of at least {MIN_SPACING_M:g} m (typical meshes are 3 to 20 m)",
         )
     s_min = min(spacings_m)
@@ -131,7 +130,7 @@ def sweep_layouts(
         raise InputError(
             f"a spacing of {s_min:g} m needs about {lc / design.settings.segment_length_m:,.0f} segments, "
             f"more than {MAX_SEGMENTS:,}",
-            fix="Use wider spacings or a longer segment length on the Settings sheet",
+            fix="Use wider spacings or a longer segment length",
         )
     out = []
     seen = set()
@@ -150,3 +149,36 @@ def sweep_layouts(
             name = f"{nxx}x{nyy} conductors, {n_rods} rods"
             out.append(SweepLayout(name, s, dx, dy, nxx, nyy, n_rods, d))
     return out
+
+
+def run_sweep(
+    design: Design,
+    spacings_m: list[float],
+    rod_counts: list[int],
+    rod_length_m: float,
+    rod_diameter_m: float,
+    jobs: int,
+) -> tuple[list[SweepLayout], list]:
+    """Build and analyse every layout of the sweep (soil already resolved).
+
+    Returns
+    -------
+    tuple
+        The layouts and one :class:`~groundcalc.studies.compare.DesignSummary`
+        per layout, whose ``extra`` holds the spacing, conductor counts and
+        rods added.
+    """
+    from .compare import run_parallel, summarise_design
+
+    layouts = sweep_layouts(design, spacings_m, rod_counts, rod_length_m, rod_diameter_m)
+    summaries = run_parallel(summarise_design, [(lay.name, lay.design) for lay in layouts], jobs)
+    for lay, s in zip(layouts, summaries, strict=True):
+        s.extra = {
+            "spacing_target_m": lay.spacing_target_m,
+            "spacing_x_m": lay.spacing_x_m,
+            "spacing_y_m": lay.spacing_y_m,
+            "conductors_along_x": lay.n_along_x,
+            "conductors_along_y": lay.n_along_y,
+            "rods_added": lay.rods_added,
+        }
+    return layouts, summaries
