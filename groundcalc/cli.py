@@ -242,7 +242,7 @@ def soil_fit_lines(fit) -> list[str]:
 
 
 def _cmd_soil(args: argparse.Namespace) -> int:
-    from .io.outputs import check_output, soil_fit_to_dict, write_design_with_soil, write_json
+    from .io.outputs import check_distinct, check_output, soil_fit_to_dict, write_design_with_soil, write_json
     from .io.workbook import read_wenner
     from .soil.wenner import fit_soil
 
@@ -251,6 +251,7 @@ def _cmd_soil(args: argparse.Namespace) -> int:
     if design_out is not None and design_out.suffix.lower() != ".xlsx":
         raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-fitted.xlsx")
     json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
+    check_distinct({"design copy": design_out, "JSON": json_out})
     readings = read_wenner(args.workbook)
     log.info("fitting uniform and two-layer models to %d readings", len(readings.spacing_m))
     fit = fit_soil(readings)
@@ -351,7 +352,7 @@ def _cmd_compare(args: argparse.Namespace) -> int:
 
 def _cmd_sweep(args: argparse.Namespace) -> int:
     from .analysis import resolve_soil
-    from .io.outputs import check_output, write_design_with_layout
+    from .io.outputs import check_distinct, check_output, write_design_with_layout
     from .io.workbook import read_design
     from .studies.compare import default_jobs, rank, run_parallel, summarise_design, table_lines
     from .studies.sweep import parse_counts, parse_range, sweep_layouts
@@ -361,10 +362,16 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     design_out = check_output(args.write_design, inputs, args.overwrite, "design") if args.write_design else None
     if design_out is not None and design_out.suffix.lower() != ".xlsx":
         raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-swept.xlsx")
+    check_distinct({"report": outputs[0], "JSON": outputs[1], "design copy": design_out})
     spacings = parse_range(args.spacing, "--spacing")
     counts = parse_counts(args.rods, "--rods")
     if not 0 < args.rod_length <= 100:
         raise InputError(f"--rod-length {args.rod_length:g} m is out of range", fix="Use 1 to 30 m (typical 3 m)")
+    if not 5.0 <= args.rod_diameter <= 100.0:  # rods are 12 to 25 mm (common practice)
+        raise InputError(
+            f"--rod-diameter {args.rod_diameter:g} mm is out of range",
+            fix="Give the diameter in millimetres, 5 to 100 mm (typical 16 mm)",
+        )
     design, fit = resolve_soil(read_design(args.workbook))
     if fit is not None:
         log.info("soil fitted once to the Wenner readings for every layout")

@@ -7,6 +7,7 @@ resistivities ohm*m, currents amperes, times seconds.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 __all__ = [
@@ -61,20 +62,26 @@ class Soil:
     Parameters
     ----------
     model : str
-        ``"uniform"``, ``"two-layer"``, or ``"fitted"`` (a two-layer model still
-        to be fitted to the design's Wenner readings; ``rho1_ohm_m`` is NaN).
-    rho1_ohm_m : float
-        Upper (or only) layer resistivity. [ohm*m]
+        ``"uniform"`` (default), ``"two-layer"``, or ``"fitted"`` (a two-layer
+        model still to be fitted to the design's Wenner readings; it has no
+        resistivities yet: ``rho1_ohm_m`` is ``None``).
+    rho1_ohm_m : float or None
+        Upper (or only) layer resistivity; ``None`` only for a fitted model. [ohm*m]
     thickness_m : float or None
         Upper layer thickness H (two-layer only). [m]
     rho2_ohm_m : float or None
         Lower layer resistivity (two-layer only). [ohm*m]
     """
 
-    model: str
-    rho1_ohm_m: float
+    model: str = "uniform"
+    rho1_ohm_m: float | None = None
     thickness_m: float | None = None
     rho2_ohm_m: float | None = None
+
+    @property
+    def is_fitted(self) -> bool:
+        """True for a model still to be fitted to Wenner readings (no resistivities yet)."""
+        return self.model == "fitted"
 
     @property
     def is_uniform(self) -> bool:
@@ -84,7 +91,7 @@ class Soil:
     @property
     def reflection_k(self) -> float:
         """Reflection coefficient K = (rho2 - rho1) / (rho2 + rho1)."""
-        if self.model == "uniform" or self.rho2_ohm_m is None:
+        if self.model == "uniform" or self.rho2_ohm_m is None or self.rho1_ohm_m is None:
             return 0.0
         return (self.rho2_ohm_m - self.rho1_ohm_m) / (self.rho2_ohm_m + self.rho1_ohm_m)
 
@@ -129,18 +136,26 @@ class Fault:
         Symmetrical rms ground-fault current 3I0. [A]
     split_factor : float
         Fraction of 3I0 that flows between the grid and remote earth (Sf).
+        Default 1.0: all of 3I0 into the grid, the conservative choice
+        (common practice when the current division is not studied).
     x_over_r : float
-        System X/R ratio at the fault location.
+        System X/R ratio at the fault location. Required (keyword or third
+        positional argument): no default is conservative for every system.
     fault_duration_s : float
-        Fault duration tf, used for the decrement factor. [s]
-    shock_duration_s : float
-        Shock duration ts, used for the tolerable voltages. [s]
+        Fault duration tf, used for the decrement factor. Required. [s]
+    shock_duration_s : float or None
+        Shock duration ts, used for the tolerable voltages. Default: equal
+        to the fault duration (IEEE Std 80-2000, clause 16.2.2, takes ts = tf
+        for a single clearing). [s]
     body_weight_kg : float
-        50 or 70. [kg]
+        50 or 70. Default 50 kg, the lower and so more conservative limit of
+        IEEE Std 80-2000, Eqs. (29) and (32). [kg]
     frequency_hz : float
-        System frequency. [Hz]
+        System frequency. Default 60 Hz (the frequency of IEEE Std 80's
+        body-current data; common practice). [Hz]
     ambient_c : float
-        Ambient (soil) temperature for conductor sizing. [degC]
+        Ambient (soil) temperature for conductor sizing. Default 40 degC,
+        the ambient of IEEE Std 80-2000 Table 2. [degC]
     max_conductor_c : float or None
         Largest allowed conductor temperature; ``None`` = the fusing
         temperature of each material. [degC]
@@ -150,16 +165,23 @@ class Fault:
     """
 
     fault_current_a: float
-    split_factor: float
-    x_over_r: float
-    fault_duration_s: float
-    shock_duration_s: float
-    body_weight_kg: float
-    frequency_hz: float
+    split_factor: float = 1.0
+    x_over_r: float | None = None
+    fault_duration_s: float | None = None
+    shock_duration_s: float | None = None
+    body_weight_kg: float = 50.0
+    frequency_hz: float = 60.0
     ambient_c: float = 40.0
     max_conductor_c: float | None = None
     touch_limit_v: float | None = None
     step_limit_v: float | None = None
+
+    def __post_init__(self) -> None:
+        missing = [n for n in ("x_over_r", "fault_duration_s") if getattr(self, n) is None]
+        if missing:
+            raise TypeError(f"Fault needs {' and '.join(missing)} (no default is safe for every system)")
+        if self.shock_duration_s is None:
+            object.__setattr__(self, "shock_duration_s", self.fault_duration_s)
 
 
 @dataclass(frozen=True)
@@ -193,7 +215,7 @@ class Conductor:
     @property
     def length_m(self) -> float:
         """Length of the conductor. [m]"""
-        return float(sum((b - a) ** 2 for a, b in zip(self.start, self.end, strict=True)) ** 0.5)
+        return float(math.dist(self.start, self.end))  # no overflow for huge coordinates
 
 
 @dataclass(frozen=True)
@@ -280,11 +302,16 @@ class Settings:
     Parameters
     ----------
     segment_length_m : float
-        Target (maximum) segment length. [m]
+        Target (maximum) segment length. Default 1 m (common practice for
+        substation grids: meshes of 3 to 20 m get several segments per side). [m]
     raster_spacing_m : float or None
-        Surface raster spacing; ``None`` picks one from the grid size. [m]
+        Surface raster spacing; ``None`` (default) picks one from the grid size. [m]
     margin_m : float
-        Distance the surface raster extends beyond the grid. [m]
+        Distance the surface raster extends beyond the grid. Default 5 m
+        (common practice: step voltages peak within a few metres of the edge). [m]
+    snap_tolerance_m : float
+        Loose ends within this distance of another conductor are joined to
+        it. Default 0 (only ends within 1 mm count as joined). [m]
     """
 
     segment_length_m: float = 1.0
@@ -317,20 +344,34 @@ class Variant:
 
 @dataclass(frozen=True)
 class Design:
-    """Everything needed to analyse one grounding design."""
+    """Everything needed to analyse one grounding design.
 
-    project: Project
-    soil: Soil
-    surface_layer: SurfaceLayer | None
-    fault: Fault
-    conductors: tuple[Conductor, ...]
-    rods: tuple[Rod, ...]
+    Every field has a keyword default so that a design can be built in code
+    from the parts it needs, e.g. ``Design(soil=Soil(rho1_ohm_m=100),
+    fault=Fault(5000, x_over_r=10, fault_duration_s=0.5), grids=[...])``.
+    :func:`groundcalc.validation.validate` refuses a design without soil or
+    fault data; the analysis validates and repairs every design it is given.
+    Lists are stored as tuples.
+    """
+
+    project: Project = field(default_factory=Project)
+    soil: Soil | None = None
+    surface_layer: SurfaceLayer | None = None
+    fault: Fault | None = None
+    conductors: tuple[Conductor, ...] = ()
+    rods: tuple[Rod, ...] = ()
     grids: tuple[GridSpec, ...] = ()
     settings: Settings = field(default_factory=Settings)
     notices: tuple[Notice, ...] = ()
     source_name: str = ""
     wenner: WennerReadings | None = None
     variants: tuple[Variant, ...] = ()
+
+    def __post_init__(self) -> None:
+        for name in ("conductors", "rods", "grids", "notices", "variants"):
+            value = getattr(self, name)
+            if not isinstance(value, tuple):
+                object.__setattr__(self, name, tuple(value))
 
     def all_conductors(self) -> list[Conductor]:
         """Conductors, generated grid lines and rods as one list."""

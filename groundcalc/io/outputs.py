@@ -53,6 +53,18 @@ def check_output(path: str | Path, inputs: Iterable[str | Path], overwrite: bool
         or its folder does not exist.
     """
     out = Path(path)
+    name_max = 255
+    if out.parent.is_dir():
+        try:
+            name_max = os.pathconf(out.parent, "PC_NAME_MAX")
+        except (OSError, ValueError, AttributeError):
+            pass
+    if len(os.fsencode(out.name)) + 16 > name_max:  # room for the temporary file's prefix and suffix
+        raise InputError(
+            f"the {what} output name '{out.name[:40]}...' is too long ({len(os.fsencode(out.name))} bytes; "
+            f"this folder allows {name_max})",
+            fix="Choose a shorter file name",
+        )
     for inp in inputs:
         ip = Path(inp)
         if out.resolve() == ip.resolve() or (out.exists() and ip.exists() and os.path.samefile(out, ip)):
@@ -72,7 +84,32 @@ def check_output(path: str | Path, inputs: Iterable[str | Path], overwrite: bool
             f"the folder '{out.parent}' for the {what} output does not exist",
             fix="Create the folder first or choose another path",
         )
+    if not out.parent.is_dir():
+        raise InputError(
+            f"'{out.parent}', the folder for the {what} output, is a file",
+            fix="Choose a path inside an existing folder",
+        )
+    if not os.access(out.parent, os.W_OK | os.X_OK):
+        raise InputError(
+            f"the folder '{out.parent}' for the {what} output cannot be written to",
+            fix="Choose a folder you may write in",
+        )
     return out
+
+
+def check_distinct(paths: dict[str, Path | None]) -> None:
+    """Refuse two outputs given the same path (before any work)."""
+    seen: dict[Path, str] = {}
+    for what, p in paths.items():
+        if p is None:
+            continue
+        key = p.resolve()
+        if key in seen:
+            raise InputError(
+                f"the {seen[key]} and {what} outputs are the same file '{p}'",
+                fix="Give each output its own name",
+            )
+        seen[key] = what
 
 
 def atomic_write(path: str | Path, writer: Callable[[Path], None]) -> None:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as _dt
 from pathlib import Path
+from xml.sax.saxutils import escape
 
 import numpy as np
 from reportlab.lib.pagesizes import A4
@@ -293,7 +294,7 @@ def notices(results: Results) -> list:
         return []
     items = [Paragraph("Warnings and notes", H2)]
     for n in results.notices:
-        items.append(Paragraph(f"<b>{n.level.capitalize()}:</b> {n.message}", BODY))
+        items.append(Paragraph(f"<b>{n.level.capitalize()}:</b> {escape(n.message)}", BODY))  # text as typed
     return items
 
 

@@ -14,6 +14,7 @@ from ..analysis import FieldResult, GeometryResult, Results, evaluate, resolve_s
 from ..errors import InputError
 from ..io.schema import VARIANTS
 from ..model import Design, Soil, SurfaceLayer, Variant
+from ..validation import prepare, validate
 
 __all__ = ["VariantRun", "apply_variant", "run_variants"]
 
@@ -42,6 +43,36 @@ class VariantRun:
 
 def _err(variant: Variant, key: str, message: str, fix: str) -> InputError:
     return InputError(message, sheet=VARIANTS.name, row=variant.row, column=variant.columns.get(key), fix=fix)
+
+
+#: Model quantity -> Variants column (normalised name), for errors of the model checks.
+_QUANTITY_COLUMNS = {
+    "soil.rho1_ohm_m": "upper resistivity",
+    "soil.thickness_m": "upper thickness",
+    "soil.rho2_ohm_m": "lower resistivity",
+    "surface.rho_ohm_m": "surface layer resistivity",
+    "surface.thickness_m": "surface layer thickness",
+    "fault.fault_current_a": "fault current",
+    "fault.split_factor": "split factor",
+    "fault.fault_duration_s": "fault duration",
+    "fault.shock_duration_s": "fault duration",
+    "fault.body_weight_kg": "body weight",
+}
+
+
+def _located(exc: InputError, variant: Variant) -> InputError:
+    """An error of the model checks on a variant, placed on the variant's row and column."""
+    if exc.sheet is not None:
+        return exc
+    key = _QUANTITY_COLUMNS.get(exc.quantity or "")
+    return InputError(
+        f"variant '{variant.name}': {exc.problem}",
+        sheet=VARIANTS.name,
+        row=variant.row or None,
+        column=variant.columns.get(key) if key else None,
+        fix=exc.fix,
+        quantity=exc.quantity,
+    )
 
 
 def apply_variant(base: Design, variant: Variant) -> Design:
@@ -128,8 +159,13 @@ def run_variants(design: Design) -> VariantRun:
     -------
     VariantRun
     """
-    base, fit = resolve_soil(design)
-    designs = [replace(base, variants=())] + [apply_variant(base, v) for v in design.variants]
+    base, fit = resolve_soil(prepare(design))
+    designs = [validate(replace(base, variants=()))]
+    for v in design.variants:
+        try:
+            designs.append(validate(apply_variant(base, v)))
+        except InputError as exc:
+            raise _located(exc, v) from None
     names = ["base case"] + [v.name for v in design.variants]
     cache: dict[tuple, tuple[GeometryResult, FieldResult]] = {}
     results = []
