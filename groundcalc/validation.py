@@ -75,6 +75,8 @@ RANGES: dict[str, tuple[float | None, float | None, float | None, float | None, 
 
 #: Most segments one design may need (about the largest dense system solved on a workstation).
 MAX_SEGMENTS = 30_000
+#: Most rods one design may have (large grids have hundreds; common practice).
+MAX_RODS = 10_000
 #: Most surface raster points (a raster of 1400 x 1400 at the finest spacing).
 MAX_RASTER_POINTS = 2_000_000
 #: Largest |K| accepted: a resistivity ratio of about 2000 (common practice; the image series of
@@ -466,6 +468,12 @@ def _smallest_spacing(design: Design, conductors: list[Conductor]) -> float | No
 
 def _check_count(design: Design) -> None:
     """Refuse a design too large to solve, from its size alone (before any list is expanded)."""
+    if len(design.rods) > MAX_RODS:
+        raise _err(
+            f"the design has {len(design.rods):,} rods, more than {MAX_RODS:,}",
+            "rods",
+            "Large substation grids have tens to hundreds of rods (common practice); check for repeated rows",
+        )
     seg = design.settings.segment_length_m
     if not (math.isfinite(seg) and seg > 0):
         return

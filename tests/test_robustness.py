@@ -382,6 +382,23 @@ def test_code_design_gets_the_same_errors_without_sheet_names(kw, quantity, word
     assert e.value.sheet is None and "sheet" not in str(e.value)
 
 
+def test_20000_rods_are_refused_from_their_count():
+    rods = [Rod(f"R{k}", float(k % 100), float(k // 100), 0.5, 3.0, 0.016) for k in range(20_000)]
+    with pytest.raises(InputError, match="20,000 rods, more than 10,000"):
+        analyse(_code_design(rods=rods, settings=Settings(3.0, None, 2.0)))
+
+
+def test_sweep_rods_on_existing_rods_count_once():
+    # a perimeter rod placed where the design already has one is one piece of metal
+    from groundcalc.studies.sweep import sweep_layouts
+
+    d = _code_design(rods=[Rod("R0", 0.0, 0.0, 0.5, 3.0, 0.016)])
+    lay = sweep_layouts(d, [6.0], [4], 3.0, 0.016)[0]
+    prepared = prepare(lay.design)
+    assert len(lay.design.rods) == 5 and len(prepared.rods) == 4
+    assert any(n.code == "duplicate-rod" for n in prepared.notices)
+
+
 def test_validation_is_idempotent():
     d = prepare(_code_design(fault=Fault(3180.0, 0.05, 10.0, 0.5)))
     assert validate(d) is d and prepare(d).notices == d.notices

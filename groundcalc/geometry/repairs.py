@@ -184,19 +184,23 @@ def _dedupe_rods(rods: list[Rod], notices: list) -> list[Rod]:
     """Rods at the same place whose depths overlap become one rod over the union of their metal."""
     out: list[Rod] = []
     dup: list[str] = []
+    cells: dict[tuple[int, int], list[int]] = {}  # plan cells of TOUCH_M: candidates in O(1), not O(n)
     for r in rods:
+        cx, cy = int(np.floor(r.x_m / TOUCH_M)), int(np.floor(r.y_m / TOUCH_M))
+        near = [i for dx in (-1, 0, 1) for dy in (-1, 0, 1) for i in cells.get((cx + dx, cy + dy), ())]
         k = next(
             (
                 i
-                for i, o in enumerate(out)
-                if abs(o.x_m - r.x_m) <= TOUCH_M
-                and abs(o.y_m - r.y_m) <= TOUCH_M
-                and r.top_depth_m <= o.top_depth_m + o.length_m + TOUCH_M
-                and o.top_depth_m <= r.top_depth_m + r.length_m + TOUCH_M
+                for i in sorted(near)
+                if abs(out[i].x_m - r.x_m) <= TOUCH_M
+                and abs(out[i].y_m - r.y_m) <= TOUCH_M
+                and r.top_depth_m <= out[i].top_depth_m + out[i].length_m + TOUCH_M
+                and out[i].top_depth_m <= r.top_depth_m + r.length_m + TOUCH_M
             ),
             None,
         )
         if k is None:
+            cells.setdefault((cx, cy), []).append(len(out))
             out.append(r)
             continue
         o = out[k]
