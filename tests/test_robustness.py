@@ -203,7 +203,9 @@ CASES = [
     ("current-1e308-kA", "extreme", _both(_set("Fault", "A2", "Fault current [kA]"), _set("Fault", "B2", 1e308)),
      "run", R, ["sheet 'Fault'", "row 2", "not a finite number"]),
     ("ambient-minus-300", "extreme", _set("Fault", "B9", -300), "run", R, ["sheet 'Fault'", "row 9", "below -60"]),
-    ("ambient-above-fusing", "extreme",
+    ("ambient-above-fusing", "extreme", _set("Fault", "B9", 1200), "run", R,
+     ["sheet 'Fault'", "row 9", "(B)", "above 100 degC"]),
+    ("max-temp-below-ambient", "extreme",
      _both(_set("Fault", "B9", 90), _append("Rods", ["R", 0, 0, 0.5, 3, 16, "zinc-coated steel rod"]),
            _set("Fault", "B10", 80)), "run", R, ["sheet 'Fault'", "row 10", "not above the ambient"]),
     ("reflection-near-minus-1", "extreme",
@@ -312,15 +314,6 @@ def test_there_are_at_least_60_cases_in_every_outcome_class():
     assert len(CASES) + len(CLI_CASES) >= 60 and outcomes == {R, W, A}
 
 
-def test_markup_in_labels_prints_as_typed_in_the_report(tmp_path, capsys):
-    from pypdf import PdfReader
-
-    book = _book(tmp_path, _both(_set("Project", "B2", "<b>Kestrel & Brook</b>"), _set("Rods", "H1", "<i>x</i>")))
-    assert main(["run", str(book), "--report", str(tmp_path / "r.pdf")]) == 0
-    text = " ".join(pg.extract_text() for pg in PdfReader(tmp_path / "r.pdf").pages)
-    assert "<b>Kestrel & Brook</b>" in text and "'<i>x</i>' (H)" in text
-
-
 # --- the same checks for a design built in code (no workbook, no sheet names) ---------------------------
 
 
@@ -422,3 +415,23 @@ def test_read_only_output_folder(tmp_path, capsys):
         assert "cannot be written" in capsys.readouterr().err
     finally:
         ro.chmod(0o700)
+
+
+def test_markup_and_any_script_print_as_typed_in_the_report(tmp_path):
+    # Cyrillic, Greek, CJK and markup in the title block, and markup in a column header (which
+    # reaches the report through the ignored-column warning): one report for all of them
+    from pypdf import PdfReader
+
+    from groundcalc.report.text import markup
+
+    names = {"B2": "Пастбище Кестрел", "B3": "Κέστρελ Μπρουκ", "B4": "茶隼溪变电站", "B5": "<b>Kestrel & Brook</b>"}
+    edits = [_set("Project", cell, v) for cell, v in names.items()] + [_set("Rods", "H1", "<i>x</i>")]
+    book = _book(tmp_path, _both(*edits))
+    assert main(["run", str(book), "--report", str(tmp_path / "r.pdf"), "--quiet"]) == 0
+    text = " ".join(pg.extract_text() for pg in PdfReader(tmp_path / "r.pdf").pages)
+    assert "<b>Kestrel & Brook</b>" in text and "'<i>x</i>' (H)" in text
+    for name in names.values():
+        if markup(name)[1] == 0:  # every character has a font on this system
+            assert name in text, name
+    if any(markup(n)[1] for n in names.values()):  # said plainly instead
+        assert "could not be printed" in text
