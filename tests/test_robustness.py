@@ -22,6 +22,7 @@ import math
 import os
 from pathlib import Path
 
+import openpyxl
 import pytest
 
 from groundcalc.analysis import analyse
@@ -435,3 +436,23 @@ def test_markup_and_any_script_print_as_typed_in_the_report(tmp_path):
             assert name in text, name
     if any(markup(n)[1] for n in names.values()):  # said plainly instead
         assert "could not be printed" in text
+
+
+def test_soil_copy_keeps_a_sheet_with_a_leading_column_and_reads_back(tmp_path, capsys):
+    # the Soil sheet has an extra first column: the fitted model goes into its own Quantity/Value columns
+    book = _book(tmp_path, _both(_wenner_ok, lambda wb: wb["Soil"].insert_cols(1)))
+    copy = tmp_path / "fitted.xlsx"
+    assert main(["soil", str(book), "--write-design", str(copy), "--quiet"]) == 0
+    d = read_design(copy)
+    assert d.soil.model == "two-layer" and d.soil.rho1_ohm_m > 0
+    ws = openpyxl.load_workbook(copy)["Soil"]
+    assert ws["B2"].value == "Model" and ws["C2"].value == "two-layer"
+
+
+def test_sweep_copy_reads_back(tmp_path, capsys):
+    book = _book(tmp_path, _set("Fault", "B2", 10))  # a small fault current: the layout passes
+    copy = tmp_path / "swept.xlsx"
+    code = main(["sweep", str(book), "--spacing", "6", "--rods", "4", "--write-design", str(copy), "--quiet"])
+    assert code == 0, capsys.readouterr().err
+    d = read_design(copy)
+    assert len(d.rods) == 4 and d.grids[0].n_along_x == 3

@@ -381,7 +381,7 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
     from .template import keyvalue_sheet
     from .units import normalise_name, split_header
 
-    wb = openpyxl.load_workbook(source)
+    wb = openpyxl.load_workbook(source, data_only=True)  # formulas written as their cached values
     ws = None
     for name in wb.sheetnames:
         if normalise_name(name) == normalise_name(SOIL.name):
@@ -398,17 +398,26 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
         "upper thickness": ("Upper thickness [m]", round(fit.thickness_m, 6)),
         "lower resistivity": ("Lower resistivity [ohm*m]", round(fit.rho2_ohm_m, 6)),
     }
-    for row in ws.iter_rows(min_row=2):
-        if row[0].value is None:
+    heads = [normalise_name(c.value) if c.value is not None else "" for c in ws[1]]
+    key_names = {normalise_name(SOIL.key_header), "quantity", "field", "item"}
+    kcol = next((i for i, h in enumerate(heads) if h in key_names), 0) + 1  # the sheet's own layout
+    vcol = (heads.index("value") + 1) if "value" in heads else kcol + 1
+    ncol = (heads.index("notes") + 1) if "notes" in heads else max(kcol, vcol) + 1
+    for r in range(2, ws.max_row + 1):
+        text = ws.cell(row=r, column=kcol).value
+        if text is None:
             continue
-        key = split_header(str(row[0].value))[0]
+        key = split_header(str(text))[0]
         if key in values:
             header, val = values.pop(key)
-            row[0].value = header
-            ws.cell(row=row[0].row, column=2, value=val)
-            ws.cell(row=row[0].row, column=3, value=note)
+            ws.cell(row=r, column=kcol, value=header)
+            ws.cell(row=r, column=vcol, value=val)
+            ws.cell(row=r, column=ncol, value=note)
     for header, val in values.values():
-        ws.append([header, val, note])
+        r = ws.max_row + 1
+        ws.cell(row=r, column=kcol, value=header)
+        ws.cell(row=r, column=vcol, value=val)
+        ws.cell(row=r, column=ncol, value=note)
     atomic_write(target, lambda tmp: wb.save(tmp))
 
 
@@ -424,7 +433,7 @@ def write_design_with_layout(source: str | Path, target: str | Path, grid, added
     from .schema import GRIDS, RODS
     from .units import UNITS, normalise_name, normalise_unit, split_header
 
-    wb = openpyxl.load_workbook(source)
+    wb = openpyxl.load_workbook(source, data_only=True)  # formulas written as their cached values
 
     def sheet(spec):
         for name in wb.sheetnames:
