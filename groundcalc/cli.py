@@ -496,6 +496,30 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _new_outputs(args: argparse.Namespace) -> list[Path]:
+    """Output paths that do not exist yet: removed again if the command fails (all or nothing)."""
+    out = []
+    for name in ("json", "report", "dxf", "write_design"):
+        value = getattr(args, name, None)
+        if value:
+            try:
+                p = Path(value)
+                if not p.exists():
+                    out.append(p)
+            except OSError:  # a name the system refuses: checked and reported by the command
+                pass
+    return out
+
+
+def _remove(paths: list[Path]) -> None:
+    for p in paths:
+        try:
+            if p.is_file():
+                p.unlink()
+        except OSError:
+            pass
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``groundcalc`` command."""
     parser = _parser()
@@ -504,11 +528,16 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return 2
     _setup_logging(getattr(args, "quiet", False))
+    fresh = _new_outputs(args)
     try:
         return int(args.func(args))
     except InputError as exc:
+        _remove(fresh)
         print(f"groundcalc: error: {exc}", file=sys.stderr)
         return 2
+    except BaseException:
+        _remove(fresh)
+        raise
     except BrokenPipeError:
         return 0
     except KeyboardInterrupt:

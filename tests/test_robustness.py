@@ -456,3 +456,19 @@ def test_sweep_copy_reads_back(tmp_path, capsys):
     assert code == 0, capsys.readouterr().err
     d = read_design(copy)
     assert len(d.rods) == 4 and d.grids[0].n_along_x == 3
+
+
+def test_one_output_failing_leaves_none_behind(tmp_path, capsys, monkeypatch):
+    # the JSON is written first; the report then fails: the JSON must not be left behind
+    import groundcalc.report as report_pkg
+
+    def broken(*args, **kwargs):
+        raise InputError("the report could not be written (simulated)")
+
+    monkeypatch.setattr(report_pkg, "write_report", broken)
+    book = _book(tmp_path, None)
+    out = tmp_path / "out"
+    out.mkdir()
+    code = main(["run", str(book), "--json", str(out / "r.json"), "--report", str(out / "r.pdf"), "--quiet"])
+    assert code == 2 and "simulated" in capsys.readouterr().err
+    assert list(out.iterdir()) == []
