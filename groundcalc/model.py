@@ -145,14 +145,14 @@ class Fault:
         Fault duration tf, used for the decrement factor. Required. [s]
     shock_duration_s : float or None
         Shock duration ts, used for the tolerable voltages. Default: equal
-        to the fault duration (IEEE Std 80-2000, clause 16.2.2, takes ts = tf
-        for a single clearing). [s]
+        to the fault duration (common practice for a single clearing without
+        reclosing; the IEEE Std 80 Annex B examples take ts = tf = 0.5 s). [s]
     body_weight_kg : float
         50 or 70. Default 50 kg, the lower and so more conservative limit of
         IEEE Std 80-2000, Eqs. (29) and (32). [kg]
     frequency_hz : float
-        System frequency. Default 60 Hz (the frequency of IEEE Std 80's
-        body-current data; common practice). [Hz]
+        System frequency. Default 60 Hz (common practice: the frequency of
+        the IEEE Std 80 examples and Table 10). [Hz]
     ambient_c : float
         Ambient (soil) temperature for conductor sizing. Default 40 degC,
         the ambient of IEEE Std 80-2000 Table 2. [degC]
