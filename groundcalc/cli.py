@@ -121,8 +121,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
     report, json_out = _output_paths(args, inputs)
     dxf_out, levels = _dxf_output(args, inputs, [report, json_out])
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
+    if args.check and (report or dxf_out):
+        raise InputError("--check reads and checks only; it writes no report or drawing", fix="Drop --report/--dxf")
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
+    if args.check:
+        return _check_only(design, args.workbook, json_out)
     variant_run = None
     if design.variants:
         from .studies.compare import summarise, table_lines
@@ -164,6 +168,26 @@ def _cmd_run(args: argparse.Namespace) -> int:
         counts = write_results_dxf(results, dxf_out, levels, args.dxf_units)
         print(f"\nwrote {dxf_out}: " + ", ".join(f"{layer} {n}" for layer, n in counts.items()))
     _print_cautions()
+    return 0
+
+
+def _check_only(design, workbook, json_out) -> int:
+    """``run --check``: the workbook was read, checked and repaired; list the notices, solve nothing."""
+    from .io.outputs import write_json
+
+    for n in design.notices:
+        log.warning("%s: %s", n.level, n.message)
+    print(f"{workbook}: read and checked, {len(design.notices)} warning(s) and note(s); not analysed (--check)")
+    if json_out:
+        write_json(
+            json_out,
+            {
+                "groundcalc_version": __version__,
+                "input_file": str(workbook),
+                "checked_only": True,
+                "warnings": [{"code": n.code, "level": n.level, "message": n.message} for n in design.notices],
+            },
+        )
     return 0
 
 
@@ -455,6 +479,9 @@ def _parser() -> argparse.ArgumentParser:
         "--contours", metavar="V,V,...", help="touch-voltage contour levels [V] (default: 25 %% to 200 %% of the limit)"
     )
     r.add_argument("--dxf-units", default="m", choices=("m", "mm", "cm", "ft", "in"), help="unit of the DXF (m)")
+    r.add_argument(
+        "--check", action="store_true", help="only read and check the workbook: list errors and warnings, solve nothing"
+    )
     r.set_defaults(func=_cmd_run)
 
     i = sub.add_parser("import", help="write a design workbook from the grid in a DXF drawing")

@@ -240,6 +240,7 @@ CLI_CASES = [
      ["same file"]),
     ("run-same-outputs", "outputs", ["run", "IN", "--json", "OUT/a.pdf", "--report", "OUT/a.pdf"], ["same file"]),
     ("parent-is-a-file", "outputs", ["run", "IN", "--json", "IN/r.json"], ["is a file"]),
+    ("check-with-report", "outputs", ["run", "IN", "--check", "--report", "OUT/r.pdf"], ["writes no report"]),
     ("name-too-long", "outputs", ["run", "IN", "--json", "OUT/" + "x" * 300 + ".json"], ["too long"]),
 ]
 
@@ -252,8 +253,14 @@ def _book(tmp_path: Path, edit) -> Path:
     return write_workbook(tmp_path / "design.xlsx", grids=[GRID], settings=dict(SETTINGS), edit=edit)
 
 
-def _argv(command: str, book: Path, out: Path) -> list[str]:
-    return [command, str(book), "--json", str(out / "r.json")]
+#: Cases run through the whole analysis; the others stop after reading and checking (``run --check``),
+#: which is where every refusal and warning of this table arises.
+FULL = {"sheet-unknown", "column-unknown", "surface-conductive", "rods-overlap-union", "decimal-comma", "xr-150"}
+
+
+def _argv(name: str, command: str, book: Path, out: Path) -> list[str]:
+    check = ["--check"] if command == "run" and name not in FULL else []
+    return [command, str(book), "--json", str(out / "r.json"), *check]
 
 
 @pytest.mark.parametrize("case", CASES, ids=[c[0] for c in CASES])
@@ -263,7 +270,7 @@ def test_workbook_case(tmp_path, capsys, case):
     out = tmp_path / "out"
     out.mkdir()
     before = _sha(book)
-    code = main(_argv(command, book, out))
+    code = main(_argv(name, command, book, out))
     err = capsys.readouterr().err
     assert "Traceback" not in err, (fault_class, err)
     assert _sha(book) == before, "the input workbook changed"
@@ -275,6 +282,9 @@ def test_workbook_case(tmp_path, capsys, case):
         return
     assert code == 0, (fault_class, err)
     data = json.loads((out / "r.json").read_text())
+    if command == "run":  # the whole analysis ran, or it stopped after the checks as asked
+        assert data.get("checked_only", False) == (name not in FULL)
+        assert ("grid_resistance_ohm" in data) == (name in FULL)
     if outcome == W:
         want, words = expect
         hits = [w for w in data["warnings"] if w["code"] == want]
