@@ -441,6 +441,10 @@ def _check_geometry(design: Design, notices: list[Notice]) -> list[Conductor]:
     return conductors
 
 
+#: Lines compared with each line (in order of offset) when the smallest spacing is sought.
+NEIGHBOURS = 64
+
+
 def _smallest_spacing(design: Design, conductors: list[Conductor]) -> float | None:
     """Smallest distance between parallel plan lines (grid meshes and axis-parallel conductors). [m]"""
     best = math.inf
@@ -454,15 +458,15 @@ def _smallest_spacing(design: Design, conductors: list[Conductor]) -> float | No
             if abs(a[2] - b[2]) > 1e-6 or abs(a[other] - b[other]) > 1e-6 or abs(a[axis] - b[axis]) < 1e-6:
                 continue
             lines.append((a[other], min(a[axis], b[axis]), max(a[axis], b[axis])))
-        if len(lines) < 2 or len(lines) > 5000:
+        if len(lines) < 2:
             continue
-        arr = np.array(lines)
-        off = arr[:, 0]
-        gap = np.abs(off[:, None] - off[None, :])
-        overlap = (np.minimum(arr[:, None, 2], arr[None, :, 2]) - np.maximum(arr[:, None, 1], arr[None, :, 1])) > 0
-        ok = overlap & (gap > 1e-3)
-        if ok.any():
-            best = min(best, float(gap[ok].min()))
+        arr = np.array(sorted(lines))  # by offset: near neighbours in the list are near in the plan
+        for shift in range(1, min(len(arr), NEIGHBOURS + 1)):
+            a, b = arr[:-shift], arr[shift:]
+            gap = b[:, 0] - a[:, 0]
+            ok = (np.minimum(a[:, 2], b[:, 2]) - np.maximum(a[:, 1], b[:, 1]) > 0) & (gap > 1e-3)
+            if ok.any():
+                best = min(best, float(gap[ok].min()))
     return best if math.isfinite(best) else None
 
 
