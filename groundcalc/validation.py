@@ -79,8 +79,9 @@ MAX_SEGMENTS = 30_000
 MAX_RODS = 10_000
 #: Most surface raster points (a raster of 1400 x 1400 at the finest spacing).
 MAX_RASTER_POINTS = 2_000_000
-#: Largest |K| accepted: a resistivity ratio of about 2000 (common practice; the image series of
-#: IEEE Std 80-2000 Eq. (52)-type two-layer models converge as K^n and need ever more terms).
+#: Largest |K| accepted: a resistivity ratio of about 2000 (common practice; the two-layer image
+#: series converge as K^n, so |K| near 1 needs ever more terms and the layers act as an insulator
+#: or a perfect conductor, which the model does not represent).
 MAX_REFLECTION = 0.999
 #: Raster spacing must not exceed this fraction of the smallest mesh or conductor spacing.
 RASTER_TO_MESH = 0.5
