@@ -25,7 +25,7 @@ from dataclasses import replace
 import numpy as np
 
 from .errors import InputError
-from .geometry.repairs import MAX_COORDINATE_M
+from .geometry.repairs import MAX_COORDINATE_M, MAX_DEPTH_M
 from .model import Conductor, Design, Notice
 from .safety.materials import MATERIALS
 
@@ -75,6 +75,10 @@ RANGES: dict[str, tuple[float | None, float | None, float | None, float | None, 
 
 #: Most segments one design may need (about the largest dense system solved on a workstation).
 MAX_SEGMENTS = 30_000
+#: Longest side of a Grids row (the largest substation grids are about a kilometre across). [m]
+MAX_GRID_SIDE_M = 10_000.0
+#: Most parallel conductors of one direction in a Grids row (2 to 40 is typical; common practice).
+MAX_GRID_LINES = 1000
 #: Most rods one design may have (large grids have hundreds; common practice).
 MAX_RODS = 10_000
 #: Most surface raster points (a raster of 1400 x 1400 at the finest spacing).
@@ -502,6 +506,33 @@ def _check_count(design: Design) -> None:
                 f"{kind}.position",
                 "Use local site coordinates (or check the units of the X and Y columns)",
                 c.source or None,
+            )
+    for g in design.grids:
+        for attr, name in (("length_x_m", "Length X"), ("length_y_m", "Length Y")):
+            if getattr(g, attr) > MAX_GRID_SIDE_M:
+                raise _err(
+                    f"grid '{g.label}': {name} {getattr(g, attr):.6g} m is beyond {MAX_GRID_SIDE_M:,.0f} m",
+                    f"grid.{attr}",
+                    "Substation grids are tens to hundreds of metres across (common practice); check the unit "
+                    "(mm typed in a [m] column?)",
+                    g.source or None,
+                )
+        for attr in ("n_along_x", "n_along_y"):
+            if getattr(g, attr) > MAX_GRID_LINES:
+                raise _err(
+                    f"grid '{g.label}': {getattr(g, attr):,} parallel conductors, more than {MAX_GRID_LINES:,}",
+                    f"grid.{attr}",
+                    "Count the conductors of one direction (2 to 40 is typical); use the Conductors sheet for "
+                    "irregular layouts",
+                    g.source or None,
+                )
+    for r in design.rods:
+        if r.top_depth_m > MAX_DEPTH_M:
+            raise _err(
+                f"rod '{r.label}' has its top {r.top_depth_m:.6g} m below grade, beyond {MAX_DEPTH_M:g} m",
+                "rod.depth_m",
+                "Check the top depth and its unit ([m], not [mm])",
+                r.source or None,
             )
     for c in list(design.conductors) + list(design.rods):
         length = c.length_m

@@ -218,7 +218,13 @@ CASES = [
     ("resistivity-1e9", "extreme", _set("Soil", "B3", 1e9), "run", R, ["sheet 'Soil'", "row 3", "above"]),
     # --- huge inputs --------------------------------------------------------------------------------
     ("grid-100000-lines", "huge", _set("Grids", "F2", 100000), "run", R,
-     ["sheet 'Settings'", "segments", "more than 30,000"]),
+     ["sheet 'Grids'", "row 2", "'Conductors along X' (F)", "more than 1,000"]),
+    ("grid-segments", "huge", _both(_set("Grids", "D2", 5000), _set("Grids", "F2", 500), _set("Settings", "B2", 0.5)),
+     "run", R, ["sheet 'Settings'", "row 2", "segments", "more than 30,000"]),
+    ("grid-1e308-long", "extreme", _set("Grids", "D2", 1e308), "run", R,
+     ["sheet 'Grids'", "row 2", "'Length X [m]' (D)", "beyond 10,000 m"]),
+    ("rod-top-1e308", "extreme", _append("Rods", ["R", 0, 0, 1e308, 3, 16]), "run", R,
+     ["sheet 'Rods'", "row 2", "'Top depth [m]' (D)", "beyond 1000 m"]),
     # --- repairs ------------------------------------------------------------------------------------
     ("rods-overlap-union", "repair",
      _both(_append("Rods", ["R1", 0, 0, 0.5, 3, 16]), _append("Rods", ["R2", 0, 0, 0.5, 6, 16])), "run", W,
