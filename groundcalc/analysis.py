@@ -34,6 +34,7 @@ from .surface.potential import (
     find_max_touch,
     surface_potential,
 )
+from .validation import prepare, validate
 
 __all__ = [
     "FieldResult",
@@ -234,13 +235,22 @@ def analyse(design: Design) -> Results:
     Parameters
     ----------
     design : Design
-        Validated design.
+        A design read from a workbook or built in code. It is checked and
+        repaired first (:func:`groundcalc.validation.prepare`), so every entry
+        point gets the same errors and notes.
 
     Returns
     -------
     Results
+
+    Raises
+    ------
+    InputError
+        When the design cannot give a meaningful answer.
     """
-    design, fit = resolve_soil(design)
+    design, fit = resolve_soil(prepare(design))
+    if fit is not None:
+        design = validate(design)
     geometry = solve_geometry(design)
     field_result = surface_field(design, geometry)
     return evaluate(design, geometry, field_result, fit)

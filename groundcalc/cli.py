@@ -127,8 +127,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
     dxf_out, levels = _dxf_output(args, inputs, [report, json_out])
     csv_dir, xlsx_out = _table_outputs(args, inputs, [report, json_out, dxf_out])
     sha_before = file_sha256(args.workbook) if Path(args.workbook).is_file() else None
+    if args.check and (report or dxf_out):
+        raise InputError("--check reads and checks only; it writes no report or drawing", fix="Drop --report/--dxf")
     log.info("reading %s", args.workbook)
     design = read_design(args.workbook)
+    if args.check:
+        return _check_only(design, args.workbook, json_out)
     variant_run = None
     if design.variants:
         from .studies.compare import summarise, table_lines
@@ -181,6 +185,26 @@ def _cmd_run(args: argparse.Namespace) -> int:
             write_results_xlsx(flat, results, xlsx_out)
             print(f"\nwrote results workbook {xlsx_out} (sheets Summary, Segments, Surface, Profiles)")
     _print_cautions()
+    return 0
+
+
+def _check_only(design, workbook, json_out) -> int:
+    """``run --check``: the workbook was read, checked and repaired; list the notices, solve nothing."""
+    from .io.outputs import write_json
+
+    for n in design.notices:
+        log.warning("%s: %s", n.level, n.message)
+    print(f"{workbook}: read and checked, {len(design.notices)} warning(s) and note(s); not analysed (--check)")
+    if json_out:
+        write_json(
+            json_out,
+            {
+                "groundcalc_version": __version__,
+                "input_file": str(workbook),
+                "checked_only": True,
+                "warnings": [{"code": n.code, "level": n.level, "message": n.message} for n in design.notices],
+            },
+        )
     return 0
 
 
@@ -279,7 +303,7 @@ def soil_fit_lines(fit) -> list[str]:
 
 
 def _cmd_soil(args: argparse.Namespace) -> int:
-    from .io.outputs import check_output, soil_fit_to_dict, write_design_with_soil, write_json
+    from .io.outputs import check_distinct, check_output, soil_fit_to_dict, write_design_with_soil, write_json
     from .io.workbook import read_wenner
     from .soil.wenner import fit_soil
 
@@ -288,6 +312,7 @@ def _cmd_soil(args: argparse.Namespace) -> int:
     if design_out is not None and design_out.suffix.lower() != ".xlsx":
         raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-fitted.xlsx")
     json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
+    check_distinct({"design copy": design_out, "JSON": json_out})
     readings = read_wenner(args.workbook)
     log.info("fitting uniform and two-layer models to %d readings", len(readings.spacing_m))
     fit = fit_soil(readings)
@@ -388,7 +413,7 @@ def _cmd_compare(args: argparse.Namespace) -> int:
 
 def _cmd_sweep(args: argparse.Namespace) -> int:
     from .analysis import resolve_soil
-    from .io.outputs import check_output, write_design_with_layout
+    from .io.outputs import check_distinct, check_output, write_design_with_layout
     from .io.workbook import read_design
     from .studies.compare import default_jobs, rank, table_lines
     from .studies.sweep import parse_counts, parse_range, run_sweep
@@ -398,10 +423,16 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     design_out = check_output(args.write_design, inputs, args.overwrite, "design") if args.write_design else None
     if design_out is not None and design_out.suffix.lower() != ".xlsx":
         raise InputError(f"the design copy '{design_out.name}' must end in .xlsx", fix="For example design-swept.xlsx")
+    check_distinct({"report": outputs[0], "JSON": outputs[1], "design copy": design_out})
     spacings = parse_range(args.spacing, "--spacing")
     counts = parse_counts(args.rods, "--rods")
     if not 0 < args.rod_length <= 100:
         raise InputError(f"--rod-length {args.rod_length:g} m is out of range", fix="Use 1 to 30 m (typical 3 m)")
+    if not 5.0 <= args.rod_diameter <= 100.0:  # rods are 12 to 25 mm (common practice)
+        raise InputError(
+            f"--rod-diameter {args.rod_diameter:g} mm is out of range",
+            fix="Give the diameter in millimetres, 5 to 100 mm (typical 16 mm)",
+        )
     design, fit = resolve_soil(read_design(args.workbook))
     if fit is not None:
         log.info("soil fitted once to the Wenner readings for every layout")
@@ -485,6 +516,9 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument(
         "--results-xlsx", metavar="XLSX", help="write a results workbook (Summary, Segments, Surface, Profiles)"
     )
+    r.add_argument(
+        "--check", action="store_true", help="only read and check the workbook: list errors and warnings, solve nothing"
+    )
     r.set_defaults(func=_cmd_run)
 
     i = sub.add_parser("import", help="write a design workbook from the grid in a DXF drawing")
@@ -526,6 +560,30 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _new_outputs(args: argparse.Namespace) -> list[Path]:
+    """Output paths that do not exist yet: removed again if the command fails (all or nothing)."""
+    out = []
+    for name in ("json", "report", "dxf", "write_design"):
+        value = getattr(args, name, None)
+        if value:
+            try:
+                p = Path(value)
+                if not p.exists():
+                    out.append(p)
+            except OSError:  # a name the system refuses: checked and reported by the command
+                pass
+    return out
+
+
+def _remove(paths: list[Path]) -> None:
+    for p in paths:
+        try:
+            if p.is_file():
+                p.unlink()
+        except OSError:
+            pass
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``groundcalc`` command."""
     parser = _parser()
@@ -534,11 +592,16 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return 2
     _setup_logging(getattr(args, "quiet", False))
+    fresh = _new_outputs(args)
     try:
         return int(args.func(args))
     except InputError as exc:
+        _remove(fresh)
         print(f"groundcalc: error: {exc}", file=sys.stderr)
         return 2
+    except BaseException:
+        _remove(fresh)
+        raise
     except BrokenPipeError:
         return 0
     except KeyboardInterrupt:

@@ -20,6 +20,11 @@ class InputError(Exception):
         Column header (and letter) or quantity name.
     fix : str, optional
         What would be valid.
+    quantity : str, optional
+        Model quantity the problem is in, e.g. ``"fault.split_factor"`` (set
+        by checks below the workbook reader, which maps it to a cell).
+    item : str, optional
+        Where the conductor, rod or grid came from, e.g. ``"Conductors row 4"``.
     """
 
     def __init__(
@@ -30,8 +35,12 @@ class InputError(Exception):
         row: int | None = None,
         column: str | None = None,
         fix: str | None = None,
+        quantity: str | None = None,
+        item: str | None = None,
     ) -> None:
         self.problem = problem
+        self.quantity = quantity
+        self.item = item
         self.sheet = sheet
         self.row = row
         self.column = column
@@ -47,6 +56,10 @@ class InputError(Exception):
             parts.append(f"row {self.row}")
         if self.column:
             parts.append(f"column {self.column}")
+        if not parts and self.item:
+            parts.append(self.item)
+        if not parts and self.quantity:
+            parts.append(self.quantity)
         return ", ".join(parts)
 
     def __str__(self) -> str:

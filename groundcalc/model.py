@@ -8,15 +8,14 @@ resistivities ohm*m, currents amperes, times seconds.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
-
-if TYPE_CHECKING:  # annotation only: the typed overrides live with the code that applies them
-    from .studies.variants import Variant
+from dataclasses import dataclass, field, fields
 
 import numpy as np
 
 __all__ = [
+    "FaultOverride",
+    "SoilOverride",
+    "SurfaceLayerOverride",
     "DEFAULT_FENCE_REACH_M",
     "DEFAULT_WIRE_DIAMETER_M",
     "CheckArea",
@@ -75,20 +74,26 @@ class Soil:
     Parameters
     ----------
     model : str
-        ``"uniform"``, ``"two-layer"``, or ``"fitted"`` (a two-layer model still
-        to be fitted to the design's Wenner readings; ``rho1_ohm_m`` is NaN).
-    rho1_ohm_m : float
-        Upper (or only) layer resistivity. [ohm*m]
+        ``"uniform"`` (default), ``"two-layer"``, or ``"fitted"`` (a two-layer
+        model still to be fitted to the design's Wenner readings; it has no
+        resistivities yet: ``rho1_ohm_m`` is ``None``).
+    rho1_ohm_m : float or None
+        Upper (or only) layer resistivity; ``None`` only for a fitted model. [ohm*m]
     thickness_m : float or None
         Upper layer thickness H (two-layer only). [m]
     rho2_ohm_m : float or None
         Lower layer resistivity (two-layer only). [ohm*m]
     """
 
-    model: str
-    rho1_ohm_m: float
+    model: str = "uniform"
+    rho1_ohm_m: float | None = None
     thickness_m: float | None = None
     rho2_ohm_m: float | None = None
+
+    @property
+    def is_fitted(self) -> bool:
+        """True for a model still to be fitted to Wenner readings (no resistivities yet)."""
+        return self.model == "fitted"
 
     @property
     def is_uniform(self) -> bool:
@@ -98,7 +103,7 @@ class Soil:
     @property
     def reflection_k(self) -> float:
         """Reflection coefficient K = (rho2 - rho1) / (rho2 + rho1)."""
-        if self.model == "uniform" or self.rho2_ohm_m is None:
+        if self.model == "uniform" or self.rho2_ohm_m is None or self.rho1_ohm_m is None:
             return 0.0
         return (self.rho2_ohm_m - self.rho1_ohm_m) / (self.rho2_ohm_m + self.rho1_ohm_m)
 
@@ -143,18 +148,26 @@ class Fault:
         Symmetrical rms ground-fault current 3I0. [A]
     split_factor : float
         Fraction of 3I0 that flows between the grid and remote earth (Sf).
+        Default 1.0: all of 3I0 into the grid, the conservative choice
+        (common practice when the current division is not studied).
     x_over_r : float
-        System X/R ratio at the fault location.
+        System X/R ratio at the fault location. Required (keyword or third
+        positional argument): no default is conservative for every system.
     fault_duration_s : float
-        Fault duration tf, used for the decrement factor. [s]
-    shock_duration_s : float
-        Shock duration ts, used for the tolerable voltages. [s]
+        Fault duration tf, used for the decrement factor. Required. [s]
+    shock_duration_s : float or None
+        Shock duration ts, used for the tolerable voltages. Default: equal
+        to the fault duration (common practice for a single clearing without
+        reclosing; the IEEE Std 80 Annex B examples take ts = tf = 0.5 s). [s]
     body_weight_kg : float
-        50 or 70. [kg]
+        50 or 70. Default 50 kg, the lower and so more conservative limit of
+        IEEE Std 80-2000, Eqs. (29) and (32). [kg]
     frequency_hz : float
-        System frequency. [Hz]
+        System frequency. Default 60 Hz (common practice: the frequency of
+        the IEEE Std 80 examples and Table 10). [Hz]
     ambient_c : float
-        Ambient (soil) temperature for conductor sizing. [degC]
+        Ambient (soil) temperature for conductor sizing. Default 40 degC,
+        the ambient of IEEE Std 80-2000 Table 2. [degC]
     max_conductor_c : float or None
         Largest allowed conductor temperature; ``None`` = the fusing
         temperature of each material. [degC]
@@ -164,16 +177,23 @@ class Fault:
     """
 
     fault_current_a: float
-    split_factor: float
-    x_over_r: float
-    fault_duration_s: float
-    shock_duration_s: float
-    body_weight_kg: float
-    frequency_hz: float
+    split_factor: float = 1.0
+    x_over_r: float | None = None
+    fault_duration_s: float | None = None
+    shock_duration_s: float | None = None
+    body_weight_kg: float = 50.0
+    frequency_hz: float = 60.0
     ambient_c: float = 40.0
     max_conductor_c: float | None = None
     touch_limit_v: float | None = None
     step_limit_v: float | None = None
+
+    def __post_init__(self) -> None:
+        missing = [n for n in ("x_over_r", "fault_duration_s") if getattr(self, n) is None]
+        if missing:
+            raise TypeError(f"Fault needs {' and '.join(missing)} (no default is safe for every system)")
+        if self.shock_duration_s is None:
+            object.__setattr__(self, "shock_duration_s", self.fault_duration_s)
 
 
 @dataclass(frozen=True)
@@ -207,7 +227,7 @@ class Conductor:
     @property
     def length_m(self) -> float:
         """Length of the conductor. [m]"""
-        return float(sum((b - a) ** 2 for a, b in zip(self.start, self.end, strict=True)) ** 0.5)
+        return float(math.dist(self.start, self.end))  # no overflow for huge coordinates
 
 
 @dataclass(frozen=True)
@@ -294,11 +314,16 @@ class Settings:
     Parameters
     ----------
     segment_length_m : float
-        Target (maximum) segment length. [m]
+        Target (maximum) segment length. Default 1 m (common practice for
+        substation grids: meshes of 3 to 20 m get several segments per side). [m]
     raster_spacing_m : float or None
-        Surface raster spacing; ``None`` picks one from the grid size. [m]
+        Surface raster spacing; ``None`` (default) picks one from the grid size. [m]
     margin_m : float
-        Distance the surface raster extends beyond the grid. [m]
+        Distance the surface raster extends beyond the grid. Default 5 m
+        (common practice: step voltages peak within a few metres of the edge). [m]
+    snap_tolerance_m : float
+        Loose ends within this distance of another conductor are joined to
+        it. Default 0 (only ends within 1 mm count as joined). [m]
     """
 
     segment_length_m: float = 1.0
@@ -307,20 +332,144 @@ class Settings:
     snap_tolerance_m: float = 0.0
 
 
+# --- Variants: typed overrides of soil, surface layer and fault ---
+
+
+@dataclass(frozen=True)
+class SoilOverride:
+    """Soil quantities a variant replaces; ``None`` keeps the base value.
+
+    Parameters
+    ----------
+    rho1_ohm_m : float or None
+        Soil (or upper-layer) resistivity. [ohm*m]
+    thickness_m : float or None
+        Upper-layer thickness H; with ``rho2_ohm_m`` it makes uniform soil two-layer. [m]
+    rho2_ohm_m : float or None
+        Lower-layer resistivity. [ohm*m]
+    """
+
+    rho1_ohm_m: float | None = None
+    thickness_m: float | None = None
+    rho2_ohm_m: float | None = None
+
+
+@dataclass(frozen=True)
+class SurfaceLayerOverride:
+    """Surface-layer quantities a variant replaces; ``None`` keeps the base value.
+
+    Parameters
+    ----------
+    rho_ohm_m : float or None
+        Surface layer resistivity rho_s. [ohm*m]
+    thickness_m : float or None
+        Surface layer thickness h_s. [m]
+    """
+
+    rho_ohm_m: float | None = None
+    thickness_m: float | None = None
+
+
+@dataclass(frozen=True)
+class FaultOverride:
+    """Fault quantities a variant replaces; ``None`` keeps the base value.
+
+    Parameters
+    ----------
+    fault_current_a : float or None
+        Fault current 3I0. [A]
+    split_factor : float or None
+        Split factor Sf.
+    fault_duration_s : float or None
+        Fault duration tf; the shock duration follows it where the two are equal in the base. [s]
+    body_weight_kg : float or None
+        Body weight, 50 or 70. [kg]
+    """
+
+    fault_current_a: float | None = None
+    split_factor: float | None = None
+    fault_duration_s: float | None = None
+    body_weight_kg: float | None = None
+
+
+#: Plain name and unit of every override field, for tables and reports.
+LABELS = {
+    ("soil", "rho1_ohm_m"): ("upper resistivity", "ohm*m"),
+    ("soil", "thickness_m"): ("upper thickness", "m"),
+    ("soil", "rho2_ohm_m"): ("lower resistivity", "ohm*m"),
+    ("surface_layer", "rho_ohm_m"): ("surface layer resistivity", "ohm*m"),
+    ("surface_layer", "thickness_m"): ("surface layer thickness", "m"),
+    ("fault", "fault_current_a"): ("fault current", "A"),
+    ("fault", "split_factor"): ("split factor", ""),
+    ("fault", "fault_duration_s"): ("fault duration", "s"),
+    ("fault", "body_weight_kg"): ("body weight", "kg"),
+}
+
+
+@dataclass(frozen=True)
+class Variant:
+    """A named variant of the base case: typed overrides of soil, surface layer and fault.
+
+    Parameters
+    ----------
+    name : str
+        Variant name.
+    soil, surface_layer, fault : SoilOverride, SurfaceLayerOverride, FaultOverride
+        What the variant replaces (``None`` fields keep the base values).
+    """
+
+    name: str
+    soil: SoilOverride = field(default_factory=SoilOverride)
+    surface_layer: SurfaceLayerOverride = field(default_factory=SurfaceLayerOverride)
+    fault: FaultOverride = field(default_factory=FaultOverride)
+
+    def items(self) -> list[tuple[str, str, float]]:
+        """The changed quantities as ``(group, field, value)``, in a fixed order."""
+        out = []
+        for group in ("soil", "surface_layer", "fault"):
+            part = getattr(self, group)
+            for f in fields(part):
+                v = getattr(part, f.name)
+                if v is not None:
+                    out.append((group, f.name, float(v)))
+        return out
+
+    def changes(self) -> dict[str, dict[str, float]]:
+        """The changed quantities by group, e.g. ``{"fault": {"fault_current_a": 6360.0}}`` (for JSON)."""
+        out: dict[str, dict[str, float]] = {}
+        for group, name, v in self.items():
+            out.setdefault(group, {})[name] = v
+        return out
+
+    def describe(self) -> str:
+        """The changes in words, e.g. ``"fault current 6360 A, split factor 0.5"``."""
+        parts = []
+        for group, name, v in self.items():
+            label, unit = LABELS[(group, name)]
+            parts.append(f"{label} {v:g}" + (f" {unit}" if unit else ""))
+        return ", ".join(parts)
+
+
 @dataclass(frozen=True)
 class Design:
     """Everything needed to analyse one grounding design.
 
-    ``variants`` holds :class:`groundcalc.studies.variants.Variant` objects:
-    typed overrides of soil, surface layer and fault run beside the base case.
+    Every field has a keyword default so that a design can be built in code
+    from the parts it needs, e.g. ``Design(soil=Soil(rho1_ohm_m=100),
+    fault=Fault(5000, x_over_r=10, fault_duration_s=0.5), grids=[...])``.
+    :func:`groundcalc.validation.validate` refuses a design without soil or
+    fault data; the analysis validates and repairs every design it is given.
+    Lists are stored as tuples. ``variants`` holds
+    :class:`Variant` objects: typed overrides of soil, surface layer and fault
+    run beside the base case (applied by :mod:`groundcalc.studies.variants`).
     """
 
-    project: Project
-    soil: Soil
-    surface_layer: SurfaceLayer | None
-    fault: Fault
-    conductors: tuple[Conductor, ...]
-    rods: tuple[Rod, ...]
+    project: Project = field(default_factory=Project)
+    soil: Soil | None = None
+    surface_layer: SurfaceLayer | None = None
+    fault: Fault | None = None
+    conductors: tuple[Conductor, ...] = ()
+    rods: tuple[Rod, ...] = ()
     grids: tuple[GridSpec, ...] = ()
     settings: Settings = field(default_factory=Settings)
     notices: tuple[Notice, ...] = ()
@@ -328,6 +477,12 @@ class Design:
     wenner: WennerReadings | None = None
     variants: tuple[Variant, ...] = ()
     metal: MetalLayout | None = None  # metal besides the grid (groups, fences, check points)
+
+    def __post_init__(self) -> None:
+        for name in ("conductors", "rods", "grids", "notices", "variants"):
+            value = getattr(self, name)
+            if not isinstance(value, tuple):
+                object.__setattr__(self, name, tuple(value))
 
     def all_conductors(self) -> list[Conductor]:
         """Conductors, generated grid lines and rods as one list."""

@@ -74,12 +74,14 @@ def write_workbook(
     conductors: list | None = None,
     rods: list | None = None,
     settings: dict | None = None,
+    edit=None,
 ) -> Path:
     """Fill the template with the given rows and save it (a workbook a user could fill in).
 
     ``soil``/``fault``/``settings`` map quantity text to a value. A key whose name (without
     the unit) is in the template replaces that row's text, so ``"Fault current [kA]"`` changes
-    the unit; other keys are appended as new rows (to test unknown names).
+    the unit; other keys are appended as new rows (to test unknown names). ``edit(wb)``, if
+    given, changes the filled workbook before it is saved (one save only).
     """
     from groundcalc.io.template import build_template
     from groundcalc.io.units import split_header
@@ -114,5 +116,7 @@ def write_workbook(
     for name, rows in (("Grids", grids), ("Conductors", conductors), ("Rods", rods)):
         for r in rows or []:
             wb[name].append(list(r))
+    if edit is not None:
+        edit(wb)
     wb.save(path)
     return path

@@ -7,7 +7,8 @@
   overlapping) would be counted twice and makes the moment matrix nearly
   singular: the overlapping part is removed (two Conductors-sheet conductors
   are merged into one), with a note.
-- Duplicate rods (same position, overlapping depths) are reduced to one.
+- Duplicate rods (same position, overlapping depths) are reduced to one rod over
+  the union of their metal.
 - Coordinates beyond any site system and conductors deeper than a grounding
   grid can be are refused; unusually deep conductors are flagged.
 """
@@ -180,26 +181,42 @@ def _remove_overlaps(conductors: list[Conductor], fixed: list[Conductor], notice
 
 
 def _dedupe_rods(rods: list[Rod], notices: list) -> list[Rod]:
+    """Rods at the same place whose depths overlap become one rod over the union of their metal."""
     out: list[Rod] = []
     dup: list[str] = []
+    cells: dict[tuple[int, int], list[int]] = {}  # plan cells of TOUCH_M: candidates in O(1), not O(n)
     for r in rods:
-        same = [
-            o
-            for o in out
-            if abs(o.x_m - r.x_m) <= TOUCH_M
-            and abs(o.y_m - r.y_m) <= TOUCH_M
-            and r.top_depth_m < o.top_depth_m + o.length_m
-            and o.top_depth_m < r.top_depth_m + r.length_m
-        ]
-        if same:
-            dup.append(f"{r.label} (same place as {same[0].label})")
-        else:
+        cx, cy = int(np.floor(r.x_m / TOUCH_M)), int(np.floor(r.y_m / TOUCH_M))
+        near = [i for dx in (-1, 0, 1) for dy in (-1, 0, 1) for i in cells.get((cx + dx, cy + dy), ())]
+        k = next(
+            (
+                i
+                for i in sorted(near)
+                if abs(out[i].x_m - r.x_m) <= TOUCH_M
+                and abs(out[i].y_m - r.y_m) <= TOUCH_M
+                and r.top_depth_m <= out[i].top_depth_m + out[i].length_m + TOUCH_M
+                and out[i].top_depth_m <= r.top_depth_m + r.length_m + TOUCH_M
+            ),
+            None,
+        )
+        if k is None:
+            cells.setdefault((cx, cy), []).append(len(out))
             out.append(r)
+            continue
+        o = out[k]
+        top = min(o.top_depth_m, r.top_depth_m)
+        bottom = max(o.top_depth_m + o.length_m, r.top_depth_m + r.length_m)
+        merged = replace(o, top_depth_m=top, length_m=bottom - top, diameter_m=max(o.diameter_m, r.diameter_m))
+        grown = merged != o
+        out[k] = merged
+        dup.append(f"{r.label} (same place as {o.label}" + (f"; kept {top:g} to {bottom:g} m deep)" if grown else ")"))
     if dup:
         notices.append(
             Notice(
                 "duplicate-rod",
-                "Duplicate rods were counted once: " + ", ".join(dup[:10]) + (" ..." if len(dup) > 10 else ""),
+                "Rods at the same place were counted once, over the union of their lengths: "
+                + ", ".join(dup[:10])
+                + (" ..." if len(dup) > 10 else ""),
             )
         )
     return out
@@ -211,14 +228,18 @@ def _check_extent(design: Design, notices: list) -> None:
         pts = np.array([c.start, c.end], float)
         if np.any(np.abs(pts[:, :2]) > MAX_COORDINATE_M):
             raise InputError(
-                f"conductor '{c.label}' has a plan coordinate beyond {MAX_COORDINATE_M:,.0f} m",
+                f"{c.kind} '{c.label}' has a plan coordinate beyond {MAX_COORDINATE_M:,.0f} m",
                 fix="Use local site coordinates (or check the units of the X and Y columns)",
+                quantity=f"{c.kind}.position",
+                item=c.source or None,
             )
         zmax = float(pts[:, 2].max())
         if zmax > MAX_DEPTH_M:
             raise InputError(
-                f"conductor '{c.label}' reaches {zmax:g} m below grade, beyond {MAX_DEPTH_M:g} m",
+                f"{c.kind} '{c.label}' reaches {zmax:g} m below grade, beyond {MAX_DEPTH_M:g} m",
                 fix="Check the depth columns and their units ([m], not [mm])",
+                quantity=f"{c.kind}.length_m" if c.kind == "rod" else "conductor.depth_m",
+                item=c.source or None,
             )
         if zmax > DEEP_WARNING_M:
             deep.append(c.label)

@@ -53,6 +53,18 @@ def check_output(path: str | Path, inputs: Iterable[str | Path], overwrite: bool
         or its folder does not exist.
     """
     out = Path(path)
+    name_max = 255
+    if out.parent.is_dir():
+        try:
+            name_max = os.pathconf(out.parent, "PC_NAME_MAX")
+        except (OSError, ValueError, AttributeError):
+            pass
+    if len(os.fsencode(out.name)) + 16 > name_max:  # room for the temporary file's prefix and suffix
+        raise InputError(
+            f"the {what} output name '{out.name[:40]}...' is too long ({len(os.fsencode(out.name))} bytes; "
+            f"this folder allows {name_max})",
+            fix="Choose a shorter file name",
+        )
     for inp in inputs:
         ip = Path(inp)
         if out.resolve() == ip.resolve() or (out.exists() and ip.exists() and os.path.samefile(out, ip)):
@@ -72,7 +84,32 @@ def check_output(path: str | Path, inputs: Iterable[str | Path], overwrite: bool
             f"the folder '{out.parent}' for the {what} output does not exist",
             fix="Create the folder first or choose another path",
         )
+    if not out.parent.is_dir():
+        raise InputError(
+            f"'{out.parent}', the folder for the {what} output, is a file",
+            fix="Choose a path inside an existing folder",
+        )
+    if not os.access(out.parent, os.W_OK | os.X_OK):
+        raise InputError(
+            f"the folder '{out.parent}' for the {what} output cannot be written to",
+            fix="Choose a folder you may write in",
+        )
     return out
+
+
+def check_distinct(paths: dict[str, Path | None]) -> None:
+    """Refuse two outputs given the same path (before any work)."""
+    seen: dict[Path, str] = {}
+    for what, p in paths.items():
+        if p is None:
+            continue
+        key = p.resolve()
+        if key in seen:
+            raise InputError(
+                f"the {seen[key]} and {what} outputs are the same file '{p}'",
+                fix="Give each output its own name",
+            )
+        seen[key] = what
 
 
 def atomic_write(path: str | Path, writer: Callable[[Path], None]) -> None:
@@ -348,7 +385,7 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
     from .template import keyvalue_sheet
     from .units import normalise_name, split_header
 
-    wb = openpyxl.load_workbook(source)
+    wb = openpyxl.load_workbook(source, data_only=True)  # formulas written as their cached values
     ws = None
     for name in wb.sheetnames:
         if normalise_name(name) == normalise_name(SOIL.name):
@@ -365,17 +402,26 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
         "upper thickness": ("Upper thickness [m]", round(fit.thickness_m, 6)),
         "lower resistivity": ("Lower resistivity [ohm*m]", round(fit.rho2_ohm_m, 6)),
     }
-    for row in ws.iter_rows(min_row=2):
-        if row[0].value is None:
+    heads = [normalise_name(c.value) if c.value is not None else "" for c in ws[1]]
+    key_names = {normalise_name(SOIL.key_header), "quantity", "field", "item"}
+    kcol = next((i for i, h in enumerate(heads) if h in key_names), 0) + 1  # the sheet's own layout
+    vcol = (heads.index("value") + 1) if "value" in heads else kcol + 1
+    ncol = (heads.index("notes") + 1) if "notes" in heads else max(kcol, vcol) + 1
+    for r in range(2, ws.max_row + 1):
+        text = ws.cell(row=r, column=kcol).value
+        if text is None:
             continue
-        key = split_header(str(row[0].value))[0]
+        key = split_header(str(text))[0]
         if key in values:
             header, val = values.pop(key)
-            row[0].value = header
-            ws.cell(row=row[0].row, column=2, value=val)
-            ws.cell(row=row[0].row, column=3, value=note)
+            ws.cell(row=r, column=kcol, value=header)
+            ws.cell(row=r, column=vcol, value=val)
+            ws.cell(row=r, column=ncol, value=note)
     for header, val in values.values():
-        ws.append([header, val, note])
+        r = ws.max_row + 1
+        ws.cell(row=r, column=kcol, value=header)
+        ws.cell(row=r, column=vcol, value=val)
+        ws.cell(row=r, column=ncol, value=note)
     atomic_write(target, lambda tmp: wb.save(tmp))
 
 
@@ -391,7 +437,7 @@ def write_design_with_layout(source: str | Path, target: str | Path, grid, added
     from .schema import GRIDS, RODS
     from .units import UNITS, normalise_name, normalise_unit, split_header
 
-    wb = openpyxl.load_workbook(source)
+    wb = openpyxl.load_workbook(source, data_only=True)  # formulas written as their cached values
 
     def sheet(spec):
         for name in wb.sheetnames:

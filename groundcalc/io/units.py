@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["UNITS", "normalise_name", "normalise_unit", "split_header", "to_si"]
+__all__ = ["UNITS", "normalise_name", "normalise_unit", "split_header", "to_si", "unit_case_problem"]
 
 #: Accepted units per kind of quantity, as factors to SI.
 UNITS: dict[str, dict[str, float]] = {
@@ -105,3 +105,21 @@ def to_si(kind: str, unit: str) -> float | None:
     Returns ``None`` when the unit is not accepted for that kind.
     """
     return UNITS.get(kind, {}).get(normalise_unit(unit))
+
+
+def unit_case_problem(unit: str) -> str | None:
+    """Why ``unit`` is ambiguous in capitals, or ``None``.
+
+    Units are otherwise matched without regard to capitals, but a capital M
+    before a unit means mega and a small m milli: ``MOhm`` is not ``mOhm``,
+    ``MS`` is not ``ms``. A unit that starts with a capital M and lower-cases
+    to a milli unit is refused rather than guessed (a lone ``M`` for metres
+    stays accepted).
+    """
+    u = " ".join(str(unit).split())
+    if len(u) < 2 or not u.startswith("M"):
+        return None
+    canon = normalise_unit(u)
+    if canon in ("mm", "ms", "mohm") or canon.startswith("mohm"):
+        return f"a capital M means mega, a small m milli ('{u}' would read as '{canon}', a milli unit)"
+    return None

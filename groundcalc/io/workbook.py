@@ -8,40 +8,45 @@ only and never written.
 from __future__ import annotations
 
 import datetime as _dt
+import logging
 import math
 import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import openpyxl
 from openpyxl.utils import get_column_letter
 
 from ..errors import InputError
-from ..geometry.repairs import clean_design
 from ..model import (
     Conductor,
     Design,
     Fault,
+    FaultOverride,
     GridSpec,
     Notice,
     Project,
     Rod,
     Settings,
     Soil,
+    SoilOverride,
     SurfaceLayer,
+    SurfaceLayerOverride,
+    Variant,
     WennerReadings,
 )
 from ..safety.materials import DEFAULT_MATERIAL, MATERIALS, material
 from ..soil.wenner import wenner_apparent_resistivity
+from ..validation import check_wenner, prepare
 from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, VARIANTS, WENNER, Field, SheetSpec
-from .units import UNITS, normalise_name, split_header, to_si
+from .sheetcheck import check_layout, parse_text_number
+from .units import UNITS, normalise_name, split_header, to_si, unit_case_problem
 
-if TYPE_CHECKING:
-    from ..studies.variants import Variant
+log = logging.getLogger(__name__)
 
-__all__ = ["MAX_TABLE_ROWS", "open_workbook", "read_design", "read_keyvalue", "read_table", "read_wenner"]
+__all__ = ["MAX_TABLE_ROWS", "locate", "open_workbook", "read_design", "read_keyvalue", "read_table", "read_wenner"]
 
 #: Largest number of rows read from one table sheet.
 MAX_TABLE_ROWS = 20_000
@@ -309,9 +314,6 @@ def read_table(wb, spec: SheetSpec, limit: int = MAX_TABLE_ROWS) -> list[dict[st
     return out
 
 
-_DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")
-
-
 def _as_number(cell: Cell, field: Field) -> float:
     v = cell.value
     if isinstance(v, bool) or isinstance(v, (_dt.date, _dt.time, _dt.timedelta)):
@@ -334,11 +336,18 @@ def _as_number(cell: Cell, field: Field) -> float:
                 column=cell.column,
                 fix="Fix the formula in the spreadsheet program and save the file again",
             )
-        if _DECIMAL_COMMA.match(text):
-            text = text.replace(",", ".")
         try:
-            x = float(text)
-        except ValueError:
+            x = parse_text_number(text)
+        except ValueError as exc:
+            if str(exc).startswith("the text"):
+                raise InputError(
+                    str(exc),
+                    sheet=cell.sheet,
+                    row=cell.row,
+                    column=cell.column,
+                    fix="Type the number without separators (e.g. 25000 or 25.5), or enter it as a number "
+                    "rather than text",
+                ) from None
             raise InputError(
                 f"'{v}' is not a number",
                 sheet=cell.sheet,
@@ -373,6 +382,15 @@ def _factor(cell: Cell, field: Field) -> float:
                 row=cell.unit_row,
                 column=cell.column,
                 fix=f"Write the unit after the name, e.g. '{field.header()}'; accepted units: {accepted}",
+            )
+        case = unit_case_problem(cell.unit)
+        if case is not None:
+            raise InputError(
+                f"unit '{cell.unit}' for '{field.name}' is ambiguous: {case}",
+                sheet=cell.sheet,
+                row=cell.unit_row,
+                column=cell.column,
+                fix="Write milli with a small m (mm, ms, mohm); mega is not accepted",
             )
         f = to_si(field.kind, cell.unit)
         if f is None:
@@ -539,7 +557,7 @@ def _read_soil(wb, notices: list[Notice]) -> tuple[Soil, SurfaceLayer | None]:
                         "note",
                     )
                 )
-        soil = Soil("fitted", math.nan)
+        soil = Soil("fitted")
         rho_s = value(cells, f["surface layer resistivity"])
         h_s = value(cells, f["surface layer thickness"])
         return soil, _surface(cells, f, rho_s, h_s)
@@ -603,27 +621,10 @@ def _read_fault(wb, notices: list[Notice]) -> Fault:
     if freq is None:
         freq = 60.0
         notices.append(Notice("default-used", "Frequency blank: 60 Hz used.", "note"))
-    if not 0.03 <= ts <= 3.0:
-        notices.append(
-            Notice(
-                "outside-validity",
-                f"Shock duration {ts:g} s is outside 0.03 to 3 s, the range of the body-current "
-                "formula of IEEE Std 80 (clause 5.2); the tolerable voltages are extrapolated.",
-            )
-        )
     ambient = value(cells, f["ambient temperature"])
     if ambient is None:
         ambient = 40.0
     tmax = value(cells, f["maximum conductor temperature"])
-    if tmax is not None and tmax <= ambient:
-        c = cells[f["maximum conductor temperature"].key]
-        raise InputError(
-            f"the maximum conductor temperature {tmax:g} degC is not above the ambient temperature {ambient:g} degC",
-            sheet=c.sheet,
-            row=c.row,
-            column=c.column,
-            fix="Enter the largest temperature the conductors and joints may reach, e.g. 250 degC for bolted joints",
-        )
     limits = {}
     for key in ("touch voltage limit", "step voltage limit"):
         limits[key] = value(cells, f[key])
@@ -635,17 +636,17 @@ def _read_fault(wb, notices: list[Notice]) -> Fault:
                 )
             )
     return Fault(
-        i0,
-        sf,
-        xr,
-        tf,
-        ts,
-        float(round(weight)),
-        freq,
-        ambient,
-        tmax,
-        limits["touch voltage limit"],
-        limits["step voltage limit"],
+        fault_current_a=i0,
+        split_factor=sf,
+        x_over_r=xr,
+        fault_duration_s=tf,
+        shock_duration_s=ts,
+        body_weight_kg=float(round(weight)),
+        frequency_hz=freq,
+        ambient_c=ambient,
+        max_conductor_c=tmax,
+        touch_limit_v=limits["touch voltage limit"],
+        step_limit_v=limits["step voltage limit"],
     )
 
 
@@ -661,58 +662,13 @@ def _check_body_weight(weight: float, cell: Cell) -> None:
         )
 
 
-def _check_temperature(wb, fault: Fault, materials: set[str]) -> None:
-    """The maximum conductor temperature must not exceed any material's fusing temperature."""
-    if fault.max_conductor_c is None:
-        return
-    for name in sorted(materials):
-        mat = MATERIALS[name]
-        if fault.max_conductor_c > mat.fusing_c:
-            cells = read_keyvalue(wb, FAULT)
-            c = cells["maximum conductor temperature"]
-            raise InputError(
-                f"the maximum conductor temperature {fault.max_conductor_c:g} degC is above the fusing "
-                f"temperature of {name} ({mat.fusing_c:g} degC)",
-                sheet=c.sheet,
-                row=c.row,
-                column=c.column,
-                fix=f"Enter at most {mat.fusing_c:g} degC, or leave blank to use each material's fusing temperature",
-            )
-
-
 def _read_settings(wb) -> Settings:
     cells = read_keyvalue(wb, SETTINGS)
     f = {x.key: x for x in SETTINGS.fields}
+    # ranges are checked on the model (groundcalc.validation), whatever the entry point
     seg = value(cells, f["segment length"], 1.0)
-    if seg > 5.0 + 1e-9:
-        c = cells[f["segment length"].key]
-        raise InputError(
-            f"segment length {seg:g} m is too long for an accurate solution",
-            sheet=c.sheet,
-            row=c.row,
-            column=c.column,
-            fix="Use at most 5 m (0.5 to 2 m is typical)",
-        )
     spacing = value(cells, f["raster spacing"])
-    if spacing is not None and spacing < 0.05:
-        c = cells[f["raster spacing"].key]
-        raise InputError(
-            f"raster spacing {spacing:g} m is finer than needed and would be very slow",
-            sheet=c.sheet,
-            row=c.row,
-            column=c.column,
-            fix="Use 0.05 m or more (0.25 to 1 m is typical), or leave it blank",
-        )
     snap = value(cells, f["snap tolerance"], 0.0)
-    if snap > 1.0:
-        c = cells[f["snap tolerance"].key]
-        raise InputError(
-            f"snap tolerance {snap:g} m would move conductors by more than a metre",
-            sheet=c.sheet,
-            row=c.row,
-            column=c.column,
-            fix="Use at most 1 m (0.01 to 0.1 m is typical), or fix the coordinates",
-        )
     return Settings(seg, spacing, value(cells, f["margin"], 5.0), snap)
 
 
@@ -854,7 +810,7 @@ def _read_wenner(wb) -> WennerReadings | None:
     return WennerReadings(tuple(spacing), tuple(rho), tuple(where), WENNER.name)
 
 
-#: Variants sheet column -> (group, field) of :class:`~groundcalc.studies.variants.Variant`.
+#: Variants sheet column -> (group, field) of :class:`~groundcalc.model.Variant`.
 VARIANT_COLUMNS = {
     "upper resistivity": ("soil", "rho1_ohm_m"),
     "upper thickness": ("soil", "thickness_m"),
@@ -868,20 +824,13 @@ VARIANT_COLUMNS = {
 }
 
 
-def _read_variants(wb, base: Design) -> list[Variant]:
+def _read_variants(wb, base: Design, places: dict[str, tuple[int, dict]] | None = None) -> list[Variant]:
     """Rows of the optional Variants sheet as typed overrides; any column it does not know is an error.
 
     Each variant is applied to ``base`` once here, so that an inconsistent
     row is reported with its sheet, row and column.
     """
-    from ..studies.variants import (
-        FaultOverride,
-        SoilOverride,
-        SurfaceLayerOverride,
-        Variant,
-        VariantError,
-        apply_variant,
-    )
+    from ..studies.variants import VariantError, apply_variant
 
     ws = _find_sheet(wb, VARIANTS.name)
     if ws is None:
@@ -952,8 +901,94 @@ def _read_variants(wb, base: Design) -> list[Variant]:
             apply_variant(base, variant)
         except VariantError as exc:
             raise InputError(exc.problem, sheet=ws.title, row=row, column=columns.get(exc.field), fix=exc.fix) from None
+        if places is not None:
+            places[name] = (row, columns)
         out.append(variant)
     return out
+
+
+#: Model quantity (``InputError.quantity`` of :mod:`groundcalc.validation`) -> (sheet, field key).
+_KEYVALUE_QUANTITIES = {
+    "soil.model": (SOIL, "model"),
+    "soil.rho1_ohm_m": (SOIL, "upper resistivity"),
+    "soil.thickness_m": (SOIL, "upper thickness"),
+    "soil.rho2_ohm_m": (SOIL, "lower resistivity"),
+    "surface.rho_ohm_m": (SOIL, "surface layer resistivity"),
+    "surface.thickness_m": (SOIL, "surface layer thickness"),
+    "fault.fault_current_a": (FAULT, "fault current"),
+    "fault.split_factor": (FAULT, "split factor"),
+    "fault.x_over_r": (FAULT, "x/r ratio"),
+    "fault.fault_duration_s": (FAULT, "fault duration"),
+    "fault.shock_duration_s": (FAULT, "shock duration"),
+    "fault.body_weight_kg": (FAULT, "body weight"),
+    "fault.frequency_hz": (FAULT, "frequency"),
+    "fault.ambient_c": (FAULT, "ambient temperature"),
+    "fault.max_conductor_c": (FAULT, "maximum conductor temperature"),
+    "fault.touch_limit_v": (FAULT, "touch voltage limit"),
+    "fault.step_limit_v": (FAULT, "step voltage limit"),
+    "settings.segment_length_m": (SETTINGS, "segment length"),
+    "settings.raster_spacing_m": (SETTINGS, "raster spacing"),
+    "settings.margin_m": (SETTINGS, "margin"),
+    "settings.snap_tolerance_m": (SETTINGS, "snap tolerance"),
+}
+
+#: Last part of a quantity of a table item -> field key, per sheet (``None`` key: any sheet).
+_TABLE_COLUMNS = {
+    "diameter_m": {None: "diameter"},
+    "depth1": {"Conductors": "depth1", "Grids": "depth"},
+    "depth2": {"Conductors": "depth2", "Grids": "depth"},
+    "depth_m": {"Rods": "top depth", "Grids": "depth", "Conductors": "depth1"},
+    "position": {"Conductors": "x1", "Rods": "x", "Grids": "x0"},
+    "length_m": {"Rods": "length", "Conductors": "x2", "Grids": "length x"},
+    "length_x_m": {None: "length x"},
+    "length_y_m": {None: "length y"},
+    "n_along_x": {None: "conductors along x"},
+    "n_along_y": {None: "conductors along y"},
+    "spacing_m": {None: "spacing"},
+}
+
+
+def _locations(wb) -> dict:
+    """Cells of the key-value quantities and column labels of the tables, for :func:`locate`."""
+    cells = {spec.name: read_keyvalue(wb, spec) for spec in (SOIL, FAULT, SETTINGS)}
+    columns: dict[str, dict[str, str]] = {}
+    for spec in (CONDUCTORS, RODS, GRIDS, WENNER):
+        ws = _find_sheet(wb, spec.name)
+        labels: dict[str, str] = {}
+        if ws is not None:
+            for row in ws.iter_rows(min_row=1, max_row=1, values_only=True):
+                for col, h in enumerate(row):
+                    if not _is_blank(h):
+                        f = spec.field(split_header(str(h))[0])
+                        if f is not None and f.key not in labels:
+                            labels[f.key] = _column_label(str(h), col)
+        columns[spec.name] = labels
+    return {"cells": cells, "columns": columns}
+
+
+def locate(exc: InputError, where: dict) -> InputError:
+    """Give an error from the model checks the sheet, row and column it came from."""
+    if exc.sheet is not None:
+        return exc
+    q = exc.quantity or ""
+    if exc.item:
+        m = re.match(r"^(\w+) row (\d+)$", exc.item)
+        if m:
+            sheet, row = m.group(1), int(m.group(2))
+            keys = _TABLE_COLUMNS.get(q.rsplit(".", 1)[-1], {})
+            key = keys.get(sheet, keys.get(None))
+            column = where["columns"].get(sheet, {}).get(key) if key else None
+            return InputError(exc.problem, sheet=sheet, row=row, column=column, fix=exc.fix, quantity=q,
+                              item=exc.item)
+    if q in _KEYVALUE_QUANTITIES:
+        spec, key = _KEYVALUE_QUANTITIES[q]
+        cell = where["cells"].get(spec.name, {}).get(key)
+        if cell is not None:
+            return InputError(exc.problem, sheet=cell.sheet, row=cell.row, column=cell.column, fix=exc.fix,
+                              quantity=q)
+        fix = (exc.fix or "") + f" (the value is blank on the '{spec.name}' sheet, so its default was used)"
+        return InputError(exc.problem, sheet=spec.name, column=f"'{spec.field(key).header()}'", fix=fix, quantity=q)
+    return exc
 
 
 def read_wenner(path: str | Path) -> WennerReadings:
@@ -967,9 +1002,19 @@ def read_wenner(path: str | Path) -> WennerReadings:
     wb = open_workbook(path)
     try:
         check_formulas(path, wb)
+        notices: list[Notice] = []
+        check_layout(wb, notices)
+        for n in notices:
+            log.warning("%s: %s", n.level, n.message)
         readings = _read_wenner(wb)
+        where = _locations(wb)
     finally:
         wb.close()
+    if readings is not None:
+        try:
+            check_wenner(readings)
+        except InputError as exc:
+            raise locate(exc, where) from None
     if readings is None:
         raise InputError(
             f"'{Path(path).name}' has no Wenner readings",
@@ -1050,6 +1095,7 @@ def read_design(path: str | Path) -> Design:
     try:
         notices: list[Notice] = []
         check_formulas(path, wb, notices)
+        check_layout(wb, notices)
         check_import_complete(wb)
         project = _read_project(wb)
         soil, surface = _read_soil(wb, notices)
@@ -1061,11 +1107,9 @@ def read_design(path: str | Path) -> Design:
         from .metal import read_metal
 
         conductors, rods, metal = read_metal(wb, conductors, rods, notices, bool(grids))
-        _check_temperature(
-            wb, fault, {c.material for c in conductors} | {r.material for r in rods} | {g.material for g in grids}
-        )
         base = Design(project, soil, surface, fault, (), (), settings=settings)
-        variants = _read_variants(wb, base)
+        variant_places: dict[str, tuple[int, dict]] = {}
+        variants = _read_variants(wb, base, variant_places)
         wenner = _read_wenner(wb) if soil.model == "fitted" else None
         if soil.model == "fitted" and wenner is None:
             raise InputError(
@@ -1081,6 +1125,7 @@ def read_design(path: str | Path) -> Design:
                     "ignored-input", "The Wenner readings are not used because the Soil model is not 'fitted'.", "note"
                 )
             )
+        where = _locations(wb)
     finally:
         wb.close()
     if not (conductors or rods or grids):
@@ -1104,4 +1149,24 @@ def read_design(path: str | Path) -> Design:
         variants=tuple(variants),
         metal=metal,
     )
-    return clean_design(design, settings.snap_tolerance_m)
+    try:
+        design = prepare(design)
+    except InputError as exc:
+        raise locate(exc, where) from None
+    if soil.model != "fitted":
+        _check_variants(design, variant_places)
+    return design
+
+
+def _check_variants(design: Design, places: dict[str, tuple[int, dict]]) -> None:
+    """Every variant makes a valid design; a refusal points at the variant's row and column."""
+    from ..studies.variants import VariantError, check_variant
+
+    for variant in design.variants:
+        try:
+            check_variant(design, variant)
+        except VariantError as exc:
+            row, columns = places.get(variant.name, (None, {}))
+            raise InputError(
+                exc.problem, sheet=VARIANTS.name, row=row, column=columns.get(exc.field), fix=exc.fix
+            ) from None

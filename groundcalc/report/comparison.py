@@ -5,6 +5,7 @@ from __future__ import annotations
 import datetime as _dt
 from collections.abc import Sequence
 from pathlib import Path
+from xml.sax.saxutils import escape
 
 import numpy as np
 from reportlab.lib.pagesizes import A4, landscape
@@ -39,13 +40,14 @@ def summary_table(summaries: Sequence[DesignSummary], ranks: Sequence[int | None
     style = []
     for k, (s, r) in enumerate(zip(summaries, ranks, strict=True), start=1):
         if s.error is not None:
-            rows.append([Paragraph(s.name, SMALL), Paragraph(f"not analysed: {s.error}", SMALL)] + [""] * 8)
+            failed = Paragraph(escape(f"not analysed: {s.error}"), SMALL)
+            rows.append([Paragraph(escape(s.name), SMALL), failed] + [""] * 8)
             style.append(("SPAN", (1, k), (-1, k)))
             continue
         result = "PASS" if s.passed else f"FAIL ({s.governing})"
         rows.append(
             [
-                Paragraph(s.name, SMALL),
+                Paragraph(escape(s.name), SMALL),
                 f"{s.resistance_ohm:.4g}",
                 f"{s.gpr_v:,.0f}",
                 f"{s.max_touch_v:,.0f} / {s.touch_limit_v:,.0f} ({s.touch_margin_pct:+.0f} %)",
@@ -72,7 +74,7 @@ def _mini_plan(s: DesignSummary, width: float, height: float) -> list:
     fig.lines = s.lines
     fig.rods = s.rods_xy
     fig.markers = [Marker(s.touch_xy, f"touch {s.max_touch_v:,.0f} V")]
-    return [Paragraph(f"<b>{s.name}</b> - {'PASS' if s.passed else 'FAIL'}", SMALL), fig]
+    return [Paragraph(f"<b>{escape(s.name)}</b> - {'PASS' if s.passed else 'FAIL'}", SMALL), fig]
 
 
 def write_comparison_report(
@@ -96,7 +98,7 @@ def write_comparison_report(
     )
     story = [
         Paragraph(title, H1),
-        Paragraph(f"groundcalc {__version__}, {_dt.date.today().isoformat()}. {intro}", BODY),
+        Paragraph(f"groundcalc {__version__}, {_dt.date.today().isoformat()}. {escape(intro)}", BODY),
         Spacer(1, 6),
         summary_table(summaries, ranks, first),
         Spacer(1, 4),
@@ -131,8 +133,8 @@ def variants_section(
     for n, s, c in zip(names, summaries, changed, strict=True):
         rows.append(
             [
-                Paragraph(n, SMALL),
-                Paragraph(c, SMALL),
+                Paragraph(escape(n), SMALL),
+                Paragraph(escape(c), SMALL),
                 f"{s.resistance_ohm:.4g}",
                 f"{s.gpr_v:,.0f}",
                 f"{s.max_touch_v:,.0f} / {s.touch_limit_v:,.0f}",

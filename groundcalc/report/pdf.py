@@ -33,6 +33,7 @@ from .style import (
     table,
     verdict,
 )
+from .text import markup
 
 __all__ = ["write_report"]
 
@@ -40,20 +41,34 @@ __all__ = ["write_report"]
 def title_block(results: Results, input_name: str, sha256: str) -> list:
     """Title block flowables."""
     p = results.design.project
+    cells, missing = [], 0
+    for value in (p.project, p.site, p.prepared_by, p.revision, input_name):
+        text, lost = markup(value or "-")
+        cells.append(Paragraph(text, BODY))
+        missing += lost
     rows = [
-        ["Project", p.project or "-"],
-        ["Site", p.site or "-"],
-        ["Prepared by", p.prepared_by or "-"],
-        ["Revision", p.revision or "-"],
+        ["Project", cells[0]],
+        ["Site", cells[1]],
+        ["Prepared by", cells[2]],
+        ["Revision", cells[3]],
         ["Date", _dt.date.today().isoformat()],
-        ["Input file", input_name],
+        ["Input file", cells[4]],
         ["Input SHA-256", Paragraph(f'<font size="7.5">{sha256}</font>', SMALL)],
         ["Program", f"groundcalc {__version__}"],
     ]
-    return [
+    out = [
         Paragraph("Substation grounding study - draft results", H1),
         table(rows, [35 * mm, 135 * mm], header=False, align_right_from=2),
     ]
+    if missing:
+        out.append(
+            Paragraph(
+                f"<b>Note:</b> {missing} character(s) of the title block could not be printed in the fonts "
+                "available and are shown as '?'; the JSON results hold the text as typed.",
+                SMALL,
+            )
+        )
+    return out
 
 
 def summary(results: Results) -> list:
@@ -293,7 +308,7 @@ def notices(results: Results) -> list:
         return []
     items = [Paragraph("Warnings and notes", H2)]
     for n in results.notices:
-        items.append(Paragraph(f"<b>{n.level.capitalize()}:</b> {n.message}", BODY))
+        items.append(Paragraph(f"<b>{n.level.capitalize()}:</b> {markup(n.message)[0]}", BODY))  # as typed
     return items
 
 

@@ -143,11 +143,16 @@ def decrement_factor(x_over_r: float, fault_duration_s: float, frequency_hz: flo
     References
     ----------
     IEEE Std 80-2000, clause 15.10, Eq. (79) and Table 10.
+
+    Notes
+    -----
+    ``1 - exp(-x)`` is evaluated as ``-expm1(-x)``, so that a very large
+    Ta / tf tends to the true limit Df = sqrt(3) instead of rounding to 1.
     """
     if x_over_r <= 0.0:
         return 1.0
     ta = x_over_r / (2.0 * math.pi * frequency_hz)
-    return math.sqrt(1.0 + ta / fault_duration_s * (1.0 - math.exp(-2.0 * fault_duration_s / ta)))
+    return math.sqrt(1.0 + ta / fault_duration_s * -math.expm1(-2.0 * fault_duration_s / ta))
 
 
 def grid_current_a(fault_current_a: float, split_factor: float, decrement: float) -> float:

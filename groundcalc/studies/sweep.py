@@ -20,6 +20,8 @@ __all__ = ["SweepLayout", "parse_counts", "parse_range", "perimeter_rods", "run_
 MAX_LAYOUTS = 400
 #: Closest conductor spacing a sweep accepts (closer meshes are not built in practice). [m]
 MIN_SPACING_M = 1.0
+#: Most perimeter rods a sweep adds (a rod every metre round a 250 m square grid).
+MAX_RODS = 1000
 #: Most segments one layout of a sweep may need.
 MAX_SEGMENTS = 30_000
 
@@ -48,7 +50,15 @@ def parse_range(text: str, option: str) -> list[float]:
             lo, hi, step = parts
             if step <= 0 or hi < lo:
                 raise ValueError
+            if not all(math.isfinite(v) for v in parts):
+                raise ValueError
             count = int(math.floor((hi - lo) / step + 1e-9)) + 1
+            if count > MAX_LAYOUTS:
+                raise InputError(
+                    f"{option} '{text}' gives {count:,} values, more than {MAX_LAYOUTS} layouts "
+                    "(the most a sweep may try)",
+                    fix="Use a larger step or a shorter range",
+                )
             vals = [lo + k * step for k in range(count)]
         else:
             vals = [float(p) for p in text.split(",") if p.strip()]
@@ -57,8 +67,10 @@ def parse_range(text: str, option: str) -> list[float]:
             f"{option} '{text}' is not a list or range of numbers",
             fix=f"Write {option} FROM:TO:STEP (e.g. 5:10:1) or a list (e.g. 5,6,8)",
         ) from None
-    if not vals or any(v <= 0 for v in vals):
+    if not vals or any(not v > 0 or not math.isfinite(v) for v in vals):
         raise InputError(f"{option} '{text}' must give positive values", fix=f"For example {option} 5:10:1")
+    if len(vals) > MAX_LAYOUTS:
+        raise InputError(f"{option} '{text}' gives more than {MAX_LAYOUTS} values", fix="Give fewer values")
     return [round(v, 9) for v in vals]
 
 
@@ -68,8 +80,13 @@ def parse_counts(text: str, option: str) -> list[int]:
         vals = [float(p) for p in text.split(",") if p.strip()]
     except ValueError:
         vals = []
-    if not vals or any(v < 0 or v != int(v) for v in vals):
+    if not vals or any(not math.isfinite(v) or v < 0 or v != int(v) for v in vals):
         raise InputError(f"{option} '{text}' must be whole numbers of zero or more", fix=f"For example {option} 0,8,16")
+    if len(vals) > MAX_LAYOUTS or max(vals) > MAX_RODS:
+        raise InputError(
+            f"{option} '{text}' asks for more than {MAX_RODS} rods or {MAX_LAYOUTS} counts",
+            fix=f"Give at most {MAX_LAYOUTS} counts of at most {MAX_RODS} rods each",
+        )
     return sorted({int(v) for v in vals})
 
 

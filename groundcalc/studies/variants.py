@@ -9,12 +9,13 @@ sizing) are applied again, because the model is linear in the current.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 from ..analysis import FieldResult, GeometryResult, Results, evaluate, resolve_soil, solve_geometry, surface_field
 from ..errors import InputError
-from ..model import Design, Soil, SurfaceLayer
+from ..model import LABELS, Design, FaultOverride, Soil, SoilOverride, SurfaceLayer, SurfaceLayerOverride, Variant
+from ..validation import prepare, validate
 
 __all__ = [
     "FaultOverride",
@@ -24,123 +25,9 @@ __all__ = [
     "VariantError",
     "VariantRun",
     "apply_variant",
+    "check_variant",
     "run_variants",
 ]
-
-
-@dataclass(frozen=True)
-class SoilOverride:
-    """Soil quantities a variant replaces; ``None`` keeps the base value.
-
-    Parameters
-    ----------
-    rho1_ohm_m : float or None
-        Soil (or upper-layer) resistivity. [ohm*m]
-    thickness_m : float or None
-        Upper-layer thickness H; with ``rho2_ohm_m`` it makes uniform soil two-layer. [m]
-    rho2_ohm_m : float or None
-        Lower-layer resistivity. [ohm*m]
-    """
-
-    rho1_ohm_m: float | None = None
-    thickness_m: float | None = None
-    rho2_ohm_m: float | None = None
-
-
-@dataclass(frozen=True)
-class SurfaceLayerOverride:
-    """Surface-layer quantities a variant replaces; ``None`` keeps the base value.
-
-    Parameters
-    ----------
-    rho_ohm_m : float or None
-        Surface layer resistivity rho_s. [ohm*m]
-    thickness_m : float or None
-        Surface layer thickness h_s. [m]
-    """
-
-    rho_ohm_m: float | None = None
-    thickness_m: float | None = None
-
-
-@dataclass(frozen=True)
-class FaultOverride:
-    """Fault quantities a variant replaces; ``None`` keeps the base value.
-
-    Parameters
-    ----------
-    fault_current_a : float or None
-        Fault current 3I0. [A]
-    split_factor : float or None
-        Split factor Sf.
-    fault_duration_s : float or None
-        Fault duration tf; the shock duration follows it where the two are equal in the base. [s]
-    body_weight_kg : float or None
-        Body weight, 50 or 70. [kg]
-    """
-
-    fault_current_a: float | None = None
-    split_factor: float | None = None
-    fault_duration_s: float | None = None
-    body_weight_kg: float | None = None
-
-
-#: Plain name and unit of every override field, for tables and reports.
-LABELS = {
-    ("soil", "rho1_ohm_m"): ("upper resistivity", "ohm*m"),
-    ("soil", "thickness_m"): ("upper thickness", "m"),
-    ("soil", "rho2_ohm_m"): ("lower resistivity", "ohm*m"),
-    ("surface_layer", "rho_ohm_m"): ("surface layer resistivity", "ohm*m"),
-    ("surface_layer", "thickness_m"): ("surface layer thickness", "m"),
-    ("fault", "fault_current_a"): ("fault current", "A"),
-    ("fault", "split_factor"): ("split factor", ""),
-    ("fault", "fault_duration_s"): ("fault duration", "s"),
-    ("fault", "body_weight_kg"): ("body weight", "kg"),
-}
-
-
-@dataclass(frozen=True)
-class Variant:
-    """A named variant of the base case: typed overrides of soil, surface layer and fault.
-
-    Parameters
-    ----------
-    name : str
-        Variant name.
-    soil, surface_layer, fault : SoilOverride, SurfaceLayerOverride, FaultOverride
-        What the variant replaces (``None`` fields keep the base values).
-    """
-
-    name: str
-    soil: SoilOverride = field(default_factory=SoilOverride)
-    surface_layer: SurfaceLayerOverride = field(default_factory=SurfaceLayerOverride)
-    fault: FaultOverride = field(default_factory=FaultOverride)
-
-    def items(self) -> list[tuple[str, str, float]]:
-        """The changed quantities as ``(group, field, value)``, in a fixed order."""
-        out = []
-        for group in ("soil", "surface_layer", "fault"):
-            part = getattr(self, group)
-            for f in fields(part):
-                v = getattr(part, f.name)
-                if v is not None:
-                    out.append((group, f.name, float(v)))
-        return out
-
-    def changes(self) -> dict[str, dict[str, float]]:
-        """The changed quantities by group, e.g. ``{"fault": {"fault_current_a": 6360.0}}`` (for JSON)."""
-        out: dict[str, dict[str, float]] = {}
-        for group, name, v in self.items():
-            out.setdefault(group, {})[name] = v
-        return out
-
-    def describe(self) -> str:
-        """The changes in words, e.g. ``"fault current 6360 A, split factor 0.5"``."""
-        parts = []
-        for group, name, v in self.items():
-            label, unit = LABELS[(group, name)]
-            parts.append(f"{label} {v:g}" + (f" {unit}" if unit else ""))
-        return ", ".join(parts)
 
 
 @dataclass
@@ -187,7 +74,7 @@ class VariantError(InputError):
         so that the caller can point at the input it came from.
     """
 
-    def __init__(self, problem: str, *, variant: str, field: tuple[str, str], fix: str) -> None:
+    def __init__(self, problem: str, *, variant: str, field: tuple[str, str] | None, fix: str) -> None:
         self.variant = variant
         self.field = field
         super().__init__(problem, fix=fix)
@@ -218,6 +105,44 @@ def _check_values(variant: Variant) -> None:
                 field=(group, name),
                 fix="IEEE Std 80 gives tolerable voltages for 50 kg and 70 kg bodies",
             )
+
+
+#: Model quantity (``InputError.quantity`` of :mod:`groundcalc.validation`) -> override field.
+_QUANTITY_FIELDS = {
+    "soil.rho1_ohm_m": ("soil", "rho1_ohm_m"),
+    "soil.thickness_m": ("soil", "thickness_m"),
+    "soil.rho2_ohm_m": ("soil", "rho2_ohm_m"),
+    "surface.rho_ohm_m": ("surface_layer", "rho_ohm_m"),
+    "surface.thickness_m": ("surface_layer", "thickness_m"),
+    "fault.fault_current_a": ("fault", "fault_current_a"),
+    "fault.split_factor": ("fault", "split_factor"),
+    "fault.fault_duration_s": ("fault", "fault_duration_s"),
+    "fault.shock_duration_s": ("fault", "fault_duration_s"),
+    "fault.body_weight_kg": ("fault", "body_weight_kg"),
+}
+
+
+def check_variant(base: Design, variant: Variant) -> Design:
+    """The base design with the variant applied and validated like any design.
+
+    Raises
+    ------
+    VariantError
+        When the overrides, or the design they make, are refused; ``field`` names
+        the override the refusal comes from (``None`` when it is none of them).
+    """
+    design = apply_variant(base, variant)
+    try:
+        return validate(design)
+    except VariantError:
+        raise
+    except InputError as exc:
+        raise VariantError(
+            f"variant '{variant.name}': {exc.problem}",
+            variant=variant.name,
+            field=_QUANTITY_FIELDS.get(exc.quantity or ""),
+            fix=exc.fix,
+        ) from None
 
 
 def apply_variant(base: Design, variant: Variant) -> Design:
@@ -303,8 +228,9 @@ def run_variants(design: Design) -> VariantRun:
     -------
     VariantRun
     """
-    base, fit = resolve_soil(design)
-    designs = [replace(base, variants=())] + [apply_variant(base, v) for v in design.variants]
+    base, fit = resolve_soil(prepare(design))
+    designs = [validate(replace(base, variants=()))]
+    designs += [check_variant(base, v) for v in design.variants]
     names = ["base case"] + [v.name for v in design.variants]
     cache: dict[tuple, tuple[GeometryResult, FieldResult]] = {}
     results = []
