@@ -13,8 +13,6 @@ The package is its own front door::
 Results are a draft for review by a licensed professional engineer.
 """
 
-__version__ = "0.1.0"
-
 from .api import (  # noqa: E402
     Results,
     analyse,
@@ -41,6 +39,7 @@ from .model import (  # noqa: E402
     WennerReadings,
 )
 from .studies.variants import FaultOverride, SoilOverride, SurfaceLayerOverride, Variant, apply_variant  # noqa: E402
+from .version import __version__  # noqa: E402
 
 __all__ = [
     "Conductor",

@@ -12,8 +12,8 @@ import sys
 import textwrap
 from pathlib import Path
 
-from . import __version__
 from .errors import InputError
+from .version import __version__
 
 __all__ = ["main"]
 

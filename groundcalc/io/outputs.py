@@ -16,10 +16,10 @@ from collections.abc import Callable, Iterable
 from pathlib import Path
 from typing import Any
 
-from .. import __version__
 from ..analysis import Results
 from ..cautions import CAUTIONS, DRAFT_MARK
 from ..errors import InputError
+from ..version import __version__
 
 __all__ = [
     "atomic_write",

@@ -12,9 +12,9 @@ from reportlab.lib.pagesizes import A4, landscape
 from reportlab.lib.units import mm
 from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 
-from .. import __version__
 from ..cautions import DRAFT_MARK
 from ..studies.compare import DesignSummary
+from ..version import __version__
 from .maps import Marker, PlanFigure
 from .style import BODY, FAIL_COLOUR, H1, H2, PASS_COLOUR, SMALL, NumberedCanvas, cautions, references, table
 

@@ -10,10 +10,10 @@ from reportlab.lib.pagesizes import A4
 from reportlab.lib.units import mm
 from reportlab.platypus import KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, TableStyle
 
-from .. import __version__
 from ..analysis import Results
 from ..cautions import DRAFT_MARK
 from ..io.outputs import CLOSED_FORM_NOTE, closed_form_rows
+from ..version import __version__
 from .charts import Series, line_chart
 from .comparison import variants_section
 from .figures import leakage_figure, plan_figure, potential_figure, step_profile, touch_figure, touch_profile

@@ -13,8 +13,8 @@ from reportlab.lib.units import mm
 from reportlab.pdfgen import canvas as _canvas
 from reportlab.platypus import KeepTogether, Paragraph, Table, TableStyle
 
-from .. import __version__
 from ..cautions import CAUTIONS, DRAFT_MARK
+from ..version import __version__
 
 __all__ = [
     "BODY",
