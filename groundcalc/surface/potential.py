@@ -25,6 +25,7 @@ from ..mom.assembly import horizontal_mask
 from ..mom.integrals import FAR_MARGIN, FAR_RATIO, gauss_legendre_unit, line_integral
 from ..mom.solver import Solution
 from ..soil.twolayer import depth_key
+from .vertical import vertical_mask, vertical_surface_potential
 
 __all__ = [
     "Raster",
@@ -174,8 +175,12 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
     greens = solution.greens
     current = solution.unit_currents_a * gpr_v
     out = np.zeros(m)
+    # rods (vertical segments) in closed form, the rest below
+    vertical = vertical_mask(seg)
+    if vertical.any():
+        out += vertical_surface_potential(pts, solution, gpr_v, np.flatnonzero(vertical))
     for ls, kern in greens.surface.items():
-        sel = np.flatnonzero(seg.layer == ls)
+        sel = np.flatnonzero((seg.layer == ls) & ~vertical)
         if sel.size == 0:
             continue
         mid = seg.mid[sel]
