@@ -57,7 +57,7 @@ def layouts(draw):
     return conds + rods, soil, draw(st.sampled_from([2.0, 3.0, 4.0]))
 
 
-@settings(max_examples=20, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(layouts())
 def test_surface_potential_never_exceeds_the_gpr(layout):
     conductors, soil, seg_len = layout
