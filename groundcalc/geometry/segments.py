@@ -348,9 +348,8 @@ def segment_conductors(
         Gap below which two conductors (beyond their radii) are taken as
         joined. [m]
     grading : bool
-        Grade the segments toward free ends and toward ends that meet a
-        conductor of another direction (see the module notes); ``False`` gives
-        equal segments on every piece.
+        Grade the segments toward free ends (see the module notes); ``False``
+        gives equal segments on every piece.
     tip_radii : float
         Length of the segment at a graded end, in conductor radii.
 
