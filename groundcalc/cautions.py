@@ -43,4 +43,10 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "Touch voltage is checked over the grid footprint (the area enclosed by the outer "
         "conductors); metal that can be touched outside it, such as a fence, needs its own check.",
     ),
+    (
+        "Discretisation error and rod ends",
+        "The error estimate compares with a solve at twice the segment length and covers the "
+        "segment length only, not the thin-wire model at rod ends (about 0.1 %), the soil model or "
+        "the raster search. Above 1 %: shorten the segments.",
+    ),
 )
