@@ -7,9 +7,11 @@ the error of the fine result X_h is
 
     X_h - X_0 ~ (X_h - X_2h) / (2^p - 1).
 
-The order is taken as p = 1, the lowest order measured for grids and rods with
-graded segments (tests/test_convergence.py: 1.1 to 1.5). A higher true order
-makes the estimate an overestimate, so p = 1 is the cautious choice.
+The order is taken as p = 1, about the lowest order measured for rod-and-grid
+layouts with graded segments (tests/test_convergence.py: 1.1 and 1.2 in uniform
+soil, 1.4 in two-layer soil from 1 / 0.5 / 0.25 m; coarser two-layer levels were
+still pre-asymptotic at 0.9, where the estimate is somewhat low). A higher true
+order makes the estimate an overestimate, so p = 1 is the cautious choice.
 
 Why a coarser and not a finer level: the coarse solve has about half the
 unknowns, so its assembly costs about a quarter and its factorisation an eighth
