@@ -18,6 +18,13 @@ from .geometry.footprint import compute_footprint
 from .geometry.segments import move_off_interface, segment_conductors
 from .model import Design, Notice
 from .mom.assembly import build_greens
+from .mom.convergence import (
+    COARSE_MIN_SAVING,
+    WARN_RELATIVE,
+    DiscretisationError,
+    coarse_solution,
+    richardson_error,
+)
 from .mom.solver import GeometryResult, solve
 from .safety.closedform import ClosedForm, ConductorSizing, closed_form_check, conductor_sizing
 from .safety.ieee80 import decrement_factor, grid_current_a
@@ -41,7 +48,9 @@ __all__ = [
     "GeometryResult",
     "Results",
     "analyse",
+    "discretisation_estimate",
     "evaluate",
+    "with_discretisation",
     "resolve_soil",
     "solve_geometry",
     "surface_field",
@@ -147,6 +156,7 @@ class Results:
     closed_form: ClosedForm | None = None
     sizing: ConductorSizing | None = None
     metal: object | None = None  # groundcalc.metal_analysis.MetalResult when the design has other metal
+    discretisation: DiscretisationError | None = None
 
     @property
     def resistance_ohm(self) -> float:
@@ -180,7 +190,11 @@ def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
 
 
 def evaluate(
-    design: Design, geometry: GeometryResult, field_result: FieldResult, soil_fit: SoilFit | None = None
+    design: Design,
+    geometry: GeometryResult,
+    field_result: FieldResult,
+    soil_fit: SoilFit | None = None,
+    discretisation: DiscretisationError | None = None,
 ) -> Results:
     """Apply the fault and safety data of ``design`` to a solved geometry."""
     f = design.fault
@@ -215,6 +229,8 @@ def evaluate(
                 "(IEEE Std 80 Eq. 37): " + ", ".join(labels[:10]) + (" ..." if len(labels) > 10 else ""),
             )
         )
+    if discretisation is not None and discretisation.exceeds_warning:
+        extra.append(_discretisation_notice(discretisation))
     soil_notes = tuple(Notice("image-series", t, "note") for t in geometry.solution.greens.notes)
     notices = (
         design.notices
@@ -225,11 +241,82 @@ def evaluate(
         + tuple(extra)
     )
     return Results(
-        design, geometry, field_result, df, ig, gpr, limits, result_assessment, notices, soil_fit, closed, sizing, metal
+        design,
+        geometry,
+        field_result,
+        df,
+        ig,
+        gpr,
+        limits,
+        result_assessment,
+        notices,
+        soil_fit,
+        closed,
+        sizing,
+        metal,
+        discretisation,
     )
 
 
-def analyse(design: Design) -> Results:
+def _discretisation_notice(est: DiscretisationError) -> Notice:
+    return Notice(
+        "discretisation-error",
+        f"The estimated discretisation error is {100 * est.resistance_rel:.2g} % for the grid resistance and "
+        f"{100 * (est.touch_rel or 0.0):.2g} % for the largest touch voltage (more than {100 * WARN_RELATIVE:g} %; "
+        f"from a second solve with {est.coarse_segment_length_m:g} m segments). Use a shorter segment length.",
+    )
+
+
+def with_discretisation(results: Results) -> Results:
+    """``results`` with the discretisation-error estimate added (and its warning, if any)."""
+    if results.discretisation is not None:
+        return results
+    est = discretisation_estimate(results.design, results.geometry, results.field)
+    notices = results.notices + ((_discretisation_notice(est),) if est.exceeds_warning else ())
+    return replace(results, discretisation=est, notices=notices)
+
+
+def discretisation_estimate(design: Design, geometry: GeometryResult, field_result: FieldResult) -> DiscretisationError:
+    """Two-level (Richardson) estimate of the discretisation error of Rg and of the largest touch voltage.
+
+    The geometry is solved again with twice the segment length
+    (:func:`groundcalc.mom.convergence.coarse_solution`), or with half of it
+    when doubling hardly coarsens the mesh; the touch voltage of that solution
+    is evaluated at the location of the main result's maximum.
+    """
+    sol = geometry.solution
+    h = design.settings.segment_length_m
+    conductors = geometry.segmentation.conductors
+    ratio = 2.0
+    coarse, seg, seconds = coarse_solution(conductors, design.soil, h, design.settings.margin_m, ratio)
+    if len(seg) > COARSE_MIN_SAVING * len(sol.segments):
+        # doubling hardly coarsens this mesh: check against a finer level instead
+        ratio = 0.5
+        coarse, seg, more = coarse_solution(conductors, design.soil, h, design.settings.margin_m, ratio)
+        seconds += more
+    t0 = time.perf_counter()
+    r_rel = richardson_error(sol.resistance_ohm, coarse.resistance_ohm, ratio)
+    touch_pu = field_result.touch.voltage_v
+    touch_rel = None
+    if touch_pu > 0.0:
+        xy = np.array([field_result.touch.location_xy], dtype=float)
+        coarse_touch = (1.0 - float(surface_potential(xy, coarse, 1.0)[0])) * coarse.resistance_ohm
+        touch_rel = richardson_error(touch_pu * sol.resistance_ohm, coarse_touch, ratio)
+    seconds += time.perf_counter() - t0
+    log.info("discretisation error estimate: Rg %.2g, touch %s", r_rel, touch_rel)
+    return DiscretisationError(
+        r_rel,
+        touch_rel,
+        h,
+        ratio * h,
+        len(sol.segments),
+        len(seg),
+        coarse.resistance_ohm,
+        seconds,
+    )
+
+
+def analyse(design: Design, error_estimate: bool = True) -> Results:
     """Run the whole pipeline on one design.
 
     Parameters
@@ -238,6 +325,9 @@ def analyse(design: Design) -> Results:
         A design read from a workbook or built in code. It is checked and
         repaired first (:func:`groundcalc.validation.prepare`), so every entry
         point gets the same errors and notes.
+    error_estimate : bool
+        Also estimate the discretisation error from a coarser second solve
+        (:func:`discretisation_estimate`; about 10 % more run time).
 
     Returns
     -------
@@ -253,4 +343,5 @@ def analyse(design: Design) -> Results:
         design = validate(design)
     geometry = solve_geometry(design)
     field_result = surface_field(design, geometry)
-    return evaluate(design, geometry, field_result, fit)
+    est = discretisation_estimate(design, geometry, field_result) if error_estimate else None
+    return evaluate(design, geometry, field_result, fit, est)

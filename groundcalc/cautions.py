@@ -51,4 +51,10 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "CSV tables, the results workbook and DataFrames carry the numbers without the report's "
         "notes; touch voltage counts only where in_touch_area is true; designs built in code take SI units.",
     ),
+    (
+        "Discretisation error and rod ends",
+        "The error estimate compares with a solve at twice the segment length and covers the "
+        "segment length only, not the thin-wire model at rod ends (about 0.1 %), the soil model or "
+        "the raster search. Above 1 %: shorten the segments.",
+    ),
 )

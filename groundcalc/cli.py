@@ -89,6 +89,13 @@ def _summary_lines(results) -> list[str]:
 
         lines += metal_lines(results)
     lines.append(f"Overall: {'PASS' if a.passed else 'FAIL'} (governing: {a.governing})")
+    est = getattr(results, "discretisation", None)
+    if est is not None:
+        touch_txt = "n/a" if est.touch_rel is None else f"{100 * est.touch_rel:.2g} %"
+        lines.append(
+            f"Discretisation error (estimated, check level {est.coarse_segment_length_m:g} m segments): "
+            f"Rg {100 * est.resistance_rel:.2g} %, max touch {touch_txt}"
+        )
     lines += closed_form_lines(results)
     return lines
 
@@ -142,8 +149,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
         variant_run = run_variants(design)
         results = variant_run.results[0]
         vsum = [summarise(r, n) for n, r in zip(variant_run.names, variant_run.results, strict=True)]
+        if not args.no_error_estimate:
+            from .analysis import with_discretisation
+
+            results = with_discretisation(results)
     else:
-        results = analyse(design)
+        results = analyse(design, error_estimate=not args.no_error_estimate)
     for n in results.notices:
         log.warning("%s: %s", n.level, n.message)
     if results.soil_fit is not None:
@@ -518,6 +529,11 @@ def _parser() -> argparse.ArgumentParser:
     )
     r.add_argument(
         "--check", action="store_true", help="only read and check the workbook: list errors and warnings, solve nothing"
+    )
+    r.add_argument(
+        "--no-error-estimate",
+        action="store_true",
+        help="skip the second, coarser solve that estimates the discretisation error (saves about 10 %% of the time)",
     )
     r.set_defaults(func=_cmd_run)
 

@@ -19,7 +19,7 @@ EXAMPLE = ROOT / "examples" / "kestrel-brook.xlsx"
 
 
 def _rod_design(rho=100.0, current=1000.0) -> gc.Design:
-    """One 3 m rod of 8 mm radius from the surface, one segment (segment length 4 m)."""
+    """One 3 m rod of 8 mm radius from the surface (segment length 4 m: graded toward both ends)."""
     return gc.Design(
         gc.Project("rod"),
         gc.Soil("uniform", rho),
@@ -68,17 +68,20 @@ def test_package_front_door_exports_the_entry_points_and_model():
 
 def test_one_rod_matches_dwight_and_the_line_source(rod):
     # Dwight, AIEE Trans. 55 (1936): R = rho/(2 pi L) [ln(4L/a) - 1] = 33.49 ohm for rho = 100, L = 3 m,
-    # a = 8 mm [calc, docs/references.md]. One Galerkin segment reproduces it to the radius offset (< 0.1 %).
+    # a = 8 mm [calc, docs/references.md]. Dwight assumes a uniform current; the graded solution lets the
+    # current crowd toward the ends and lies below it (Galerkin upper bound, DESIGN.md): a solid-cylinder
+    # boundary solution gives 33.194 ohm, 0.89 % below Dwight (tests/data/rod_reference.py).
     dwight = 100.0 / (2 * math.pi * 3.0) * (math.log(4 * 3.0 / 0.008) - 1.0)
-    assert rod.resistance_ohm == pytest.approx(dwight, rel=1e-3)
+    assert dwight * (1 - 0.012) < rod.resistance_ohm < dwight
     assert rod.grid_current_a == pytest.approx(1000.0)  # Df = 1 at X/R = 0 (IEEE Std 80 Eq. 79), Sf = 1
     assert rod.gpr_v == pytest.approx(rod.grid_current_a * rod.resistance_ohm, rel=1e-12)
     # A uniform line current I on 0 <= z <= L under an insulating surface (with its image, a line of
-    # 2L carrying 2I): V(r, 0) = rho I / (2 pi L) asinh(L / r) (Sunde 1968, line source) [mem].
-    r = np.array([2.0, 10.0, 40.0])
+    # 2L carrying 2I): V(r, 0) = rho I / (2 pi L) asinh(L / r) (Sunde 1968, line source) [mem]. The real
+    # current is not uniform along the rod; the difference falls off as (L/r)^2 away from it.
+    r = np.array([10.0, 40.0])
     exact = 100.0 * 1000.0 / (2 * math.pi * 3.0) * np.arcsinh(3.0 / r)
-    got = rod.surface_potential_v(np.column_stack([r, np.zeros(3)]))
-    np.testing.assert_allclose(got, exact, rtol=2e-5)  # far rule error bound of surface.potential: 2e-5
+    got = rod.surface_potential_v(np.column_stack([r, np.zeros(2)]))
+    assert got[0] == pytest.approx(exact[0], rel=2e-3) and got[1] == pytest.approx(exact[1], rel=2e-4)
     # Far field: a point source at the surface of a half-space, V = rho I / (2 pi s) (textbook result,
     # docs/references.md); the rod's length changes it by (L/s)^2 / 6 = 4e-5 at 200 m.
     far = rod.surface_potential_v([0.0, 200.0])[0]
@@ -348,16 +351,16 @@ def test_analyse_and_the_cli_share_one_pipeline_function(monkeypatch):
     calls = []
     real = pipeline.analyse
 
-    def spy(design):
+    def spy(design, **options):
         calls.append(design)
-        return real(design)
+        return real(design, **options)
 
     monkeypatch.setattr(pipeline, "analyse", spy)
     design = _rod_design()
     res = gc.analyse(design)
     assert calls == [design] and res.pipeline.design.rods == design.rods
 
-    def refuse(design):
+    def refuse(design, **options):
         calls.append(design)
         raise gc.InputError("refused by the pipeline")
 

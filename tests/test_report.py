@@ -115,3 +115,13 @@ def test_plan_is_drawn_to_scale():
     tall = PlanFigure(400.0, 300.0, (0.0, 10.0, 0.0, 100.0))
     assert tall.plot_w / 10.0 == pytest.approx(tall.plot_h / 100.0)
     assert tall.height <= 300.0
+
+
+def test_inputs_table_shows_the_discretisation_error_estimate(report):
+    # the row of the inputs table carries the JSON's two-level estimate (Richardson, order 1)
+    _, pages, d = report
+    est = d["discretisation_error"]
+    assert est["coarse_segment_length_m"] == 2.0 * est["segment_length_m"]
+    assert 0.0 <= est["grid_resistance_rel"] < 0.01 and 0.0 <= est["max_touch_rel"] < 0.01
+    rg, touch = 100 * est["grid_resistance_rel"], 100 * est["max_touch_rel"]
+    assert f"Discretisation error, est. (Rg / touch) {rg:.2g} % / {touch:.2g} %" in " ".join(pages)

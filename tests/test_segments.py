@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from groundcalc.geometry.segments import MIN_RADII, segment_conductors
+from groundcalc.geometry.segments import GRADING_RATIO, MIN_RADII, TIP_RADII, graded_lengths, segment_conductors
 from groundcalc.model import Conductor, GridSpec, Rod
 
 
@@ -59,8 +59,13 @@ def test_segments_never_shorter_than_ten_radii():
 def test_crossing_close_to_an_end_does_not_make_a_tiny_segment():
     a = Conductor("a", (0, 0, 0.5), (10, 0, 0.5), 0.02)
     b = Conductor("b", (0.05, -5, 0.5), (0.05, 5, 0.5), 0.02)  # 5 cm from a's end: < 10 radii
-    s = segment_conductors([a, b], 2.0).segments
+    s = segment_conductors([a, b], 2.0, grading=False).segments
     assert np.all(s.length >= MIN_RADII * 0.01 - 1e-12)
+    # with grading only the graded tips at the free ends are shorter, and the crossing still makes no cut
+    s = segment_conductors([a, b], 2.0).segments
+    assert np.all(s.length >= TIP_RADII * 0.01 - 1e-12)
+    on_a = (s.a[:, 1] == 0.0) & (s.b[:, 1] == 0.0)
+    assert 0.05 not in set(np.round(s.a[on_a, 0], 9))
 
 
 def test_interface_splits_rods_and_assigns_layers():
@@ -76,5 +81,49 @@ def test_grid_generator_counts():
     conds = g.conductors()
     assert len(conds) == 22
     assert sum(c.length_m for c in conds) == pytest.approx(1540.0)  # Annex B Ex. 1: LC = 1540 m [doc]
-    s = segment_conductors(conds, 1.0).segments
+    s = segment_conductors(conds, 1.0, grading=False).segments
     assert len(s) == 1540
+    graded = segment_conductors(conds, 1.0).segments
+    assert graded.length.max() <= 1.0 + 1e-9
+    assert graded.length.sum() == pytest.approx(1540.0)
+    assert len(graded) == len(s)  # grid corners and T-joints are not graded (horizontal junction ends)
+
+
+def test_graded_lengths_grow_geometrically_and_fill_the_piece():
+    sizes = graded_lengths(3.0, 1.0, 0.024, False, True)
+    assert sizes.sum() == pytest.approx(3.0)
+    assert sizes.max() <= 1.0 + 1e-12
+    assert sizes[-1] == pytest.approx(0.024)
+    run = sizes[::-1][:4]  # 0.024, 0.072, 0.216, 0.648 with ratio 3
+    assert np.allclose(run[1:] / run[:-1], GRADING_RATIO)
+    # a short piece graded at both ends: lengths never fall toward the middle
+    short = graded_lengths(0.5, 1.0, 0.024, True, True)
+    assert short.sum() == pytest.approx(0.5)
+    half = short[: (len(short) + 1) // 2]
+    assert np.all(np.diff(half) >= -1e-12)
+
+
+def test_rod_at_grade_is_graded_at_both_ends():
+    # the foot is a free end; the top at grade is graded too (the surface potential peaks there)
+    rod = Rod("r", 0, 0, 0.0, 3.0, 0.016).as_conductor()
+    s = segment_conductors([rod], 1.0).segments
+    assert s.length[s.b[:, 2].argmax()] == pytest.approx(TIP_RADII * 0.008)
+    assert s.length[s.a[:, 2].argmin()] == pytest.approx(TIP_RADII * 0.008)
+    assert s.length.max() <= 1.0 + 1e-12
+
+
+def test_only_free_ends_are_graded():
+    # rod top on a conductor and the joint of two collinear conductors: not graded; the rod's foot
+    # and the outer ends of the conductors are free and graded
+    a = Conductor("a", (0, 0, 0.5), (5, 0, 0.5), 0.01)
+    b = Conductor("b", (5, 0, 0.5), (10, 0, 0.5), 0.01)
+    rod = Rod("r", 2.5, 0, 0.5, 3.0, 0.016).as_conductor()
+    s = segment_conductors([a, b, rod], 1.0).segments
+    vertical = s.a[:, 2] != s.b[:, 2]
+    top = vertical & (np.minimum(s.a[:, 2], s.b[:, 2]) == 0.5)
+    foot = vertical & (np.maximum(s.a[:, 2], s.b[:, 2]) == 3.5)
+    assert s.length[foot][0] == pytest.approx(TIP_RADII * 0.008)
+    assert s.length[top][0] > 0.5
+    near_joint = ~vertical & (np.abs(s.mid[:, 0] - 5.0) < 1.0)
+    assert np.all(s.length[near_joint] > 0.5)
+    assert s.length[~vertical].min() == pytest.approx(TIP_RADII * 0.005)

@@ -12,13 +12,19 @@ import numpy as np
 
 from .segments import Segments
 
-__all__ = ["horizontal_mask", "segment_classes"]
+__all__ = ["horizontal_mask", "segment_classes", "vertical_mask"]
 
 
 def horizontal_mask(segments: Segments) -> np.ndarray:
     """True for segments whose two ends are at the same depth."""
     dz = np.abs(segments.b[:, 2] - segments.a[:, 2])
     return dz <= 1e-12 * np.maximum(segments.length, 1e-300)
+
+
+def vertical_mask(segments: Segments) -> np.ndarray:
+    """True for segments whose two ends have the same plan position (rods)."""
+    dxy = np.hypot(segments.b[:, 0] - segments.a[:, 0], segments.b[:, 1] - segments.a[:, 1])
+    return dxy <= 1e-12 * np.maximum(segments.length, 1e-300)
 
 
 def segment_classes(segments: Segments) -> np.ndarray:

@@ -222,11 +222,31 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
     out["soil"]["series_tolerance"] = g.tolerance or None
     if results.soil_fit is not None:
         out["soil_fit"] = soil_fit_to_dict(results.soil_fit)
+    out["discretisation_error"] = discretisation_to_dict(results.discretisation)
     if results.metal is not None:
         from .metal import metal_to_dict
 
         out.update(metal_to_dict(results))
     return out
+
+
+def discretisation_to_dict(est) -> dict[str, Any] | None:
+    """The two-level discretisation-error estimate (relative errors as fractions), or None when not run."""
+    if est is None:
+        return None
+    return {
+        "grid_resistance_rel": est.resistance_rel,
+        "max_touch_rel": est.touch_rel,
+        "method": "Richardson estimate from a second solve with twice (or, where that hardly coarsens the "
+        "mesh, half) the segment length, assumed order 1",
+        "segment_length_m": est.segment_length_m,
+        "coarse_segment_length_m": est.coarse_segment_length_m,
+        "segment_count": est.segments,
+        "coarse_segment_count": est.coarse_segments,
+        "coarse_grid_resistance_ohm": est.coarse_resistance_ohm,
+        "exceeds_1_percent": est.exceeds_warning,
+        "seconds": est.seconds,
+    }
 
 
 def _diff_pct(numerical: float, closed: float) -> float:

@@ -40,7 +40,7 @@ from functools import partial
 
 import numpy as np
 
-from ..geometry.classes import horizontal_mask
+from ..geometry.classes import horizontal_mask, vertical_mask
 from ..geometry.segments import Segments
 from ..model import Soil
 from ..soil.greens import SURFACE, DepthRanges, GreensFunction, Image
@@ -295,6 +295,7 @@ class Operator:
         self.mid = segments.mid
         self.unit = (segments.b - segments.a) / self.length[:, None] if len(segments) else np.zeros((0, 3))
         self.horizontal = horizontal_mask(segments)
+        self.vertical = vertical_mask(segments)
         self.layer_pairs = list(greens.layer_pairs())
         self._groups = _groups
 
@@ -580,11 +581,46 @@ class Operator:
             sel = src[pick]
             q = q_all[pick]
             rows = max(1, POINT_CHUNK_PAIRS // sel.size)
-            far_ok, groups = self._point_groups(sel, layer_s)
+            vert = self.vertical[sel]
+            vsel, vq = sel[vert], q[vert]
+            sel, q = sel[~vert], q[~vert]
+            far_ok, groups = self._point_groups(sel, layer_s) if sel.size else (None, [])
             for p0 in range(0, m, rows):
                 pp = pts[p0 : p0 + rows]
-                out[p0 : p0 + rows] += self._point_block(pp, sel, layer_s, far_ok, groups) @ q
+                if sel.size:
+                    out[p0 : p0 + rows] += self._point_block(pp, sel, layer_s, far_ok, groups) @ q
+                if vsel.size:
+                    out[p0 : p0 + rows] += self._point_vertical(pp, vsel, layer_s) @ vq
         return out
+
+    def _point_vertical(self, pp: np.ndarray, sel: np.ndarray, layer_s: int) -> np.ndarray:
+        """Potential per unit current at surface points ``pp`` of vertical segments ``sel`` (rods).
+
+        Each image of a vertical segment is vertical (images move depths only), and the line
+        integral along it is closed: int dz / sqrt(rho^2 + z^2) = asinh(z2/rho) - asinh(z1/rho),
+        rho^2 = d^2 + a^2 (the regularised kernel of :func:`line_integral`, for this direction;
+        uniform line source, Dwight 1936). The image tails take the Gauss rule of the general path.
+        """
+        seg, g = self.segments, self.greens
+        x, y = seg.a[sel, 0], seg.a[sel, 1]
+        za, zb = seg.a[sel, 2], seg.b[sel, 2]
+        length = self.length[sel]
+        d2 = (pp[:, 0, None] - x[None, :]) ** 2 + (pp[:, 1, None] - y[None, :]) ** 2
+        rho = np.sqrt(d2 + (seg.radius[sel] ** 2)[None, :])
+        acc = np.zeros(d2.shape)
+        for img in g.images(SURFACE, layer_s):
+            z1, z2 = img.map_depth(za), img.map_depth(zb)
+            acc += img.weight_ohm_m * np.abs(np.arcsinh(z2[None, :] / rho) - np.arcsinh(z1[None, :] / rho))
+        tails = g.tails(SURFACE, layer_s)
+        if tails:
+            d = np.sqrt(d2).ravel()
+            t, w = gauss_legendre_unit(TAIL_POINTS)
+            for ti, wi in zip(t, w, strict=True):
+                zq = za + ti * (zb - za)
+                for tail in tails:
+                    v = np.broadcast_to(tail.argument(0.0, zq)[None, :], d2.shape).ravel()
+                    acc += (wi * tail.weight_ohm_m * length)[None, :] * g.tail_sum(d, v).reshape(d2.shape)
+        return acc / (4.0 * np.pi * length)[None, :]
 
     def _point_groups(self, sel: np.ndarray, layer_s: int) -> tuple[np.ndarray, list]:
         """Sources of ``sel`` that take the far rule from surface points, and their radial sums."""

@@ -189,6 +189,15 @@ def inputs(results: Results) -> list:
         ],
         ["Linear solver", results.geometry.solution.method],
     ]
+    est = results.discretisation
+    if est is not None:
+        touch_txt = "n/a" if est.touch_rel is None else f"{100 * est.touch_rel:.2g} %"
+        geo_rows.append(
+            [
+                "Discretisation error, est. (Rg / touch)",
+                f"{100 * est.resistance_rel:.2g} % / {touch_txt}" + (" - above 1 %" if est.exceeds_warning else ""),
+            ]
+        )
     w = [70 * mm, 100 * mm]
     return [
         Paragraph("Inputs", H2),
