@@ -10,6 +10,8 @@ from groundcalc.model import Conductor, GridSpec, Soil
 from groundcalc.mom.assembly import build_greens
 from groundcalc.mom.operator import FAR_MARGIN, PAIR_FAR_RATIO, Operator
 from groundcalc.mom.solver import Solution
+from groundcalc.soil.greens import SURFACE, GreensFunction
+from groundcalc.soil.registry import registered_models
 from groundcalc.soil.twolayer import point_potential
 from groundcalc.surface.potential import surface_potential
 
@@ -83,3 +85,26 @@ def test_far_rule_entries_against_near_rule_at_the_switch(k, monkeypatch):
     near = op.general_entries(ii[sel], jj[sel])
     assert not np.array_equal(far, near)  # two different rules
     assert np.max(np.abs(far / near - 1)) < 2e-5
+
+
+def test_soil_models_implement_the_greens_function_protocol():
+    # every registered model answers the protocol; an unknown model is refused by name
+    seg = segment_conductors(GridSpec("g", 0, 0, 10, 10, 2, 2, 0.5, 0.01).conductors(), 2.0).segments
+    for soil in (Soil("uniform", 100.0), k_soil(0.5, 2.0)):
+        g = build_greens(soil, seg)
+        assert isinstance(g, GreensFunction)
+        assert g.images(0, 0)[: len(g.leading_images(0, 0))] == g.leading_images(0, 0)
+    assert set(registered_models()) >= {"uniform", "two-layer"}
+    with pytest.raises(ValueError, match="three-layer"):
+        build_greens(Soil("three-layer", 100.0), seg)
+
+
+def test_equal_layers_have_the_uniform_images():
+    # rho1 = rho2 (K = 0): the two-layer series reduces to the source and its surface image
+    # (common practice), with no tails, for buried and for surface observers
+    seg = segment_conductors(GridSpec("g", 0, 0, 10, 10, 2, 2, 0.5, 0.01).conductors(), 2.0).segments
+    two = build_greens(k_soil(0.0, 2.0), seg)
+    uni = build_greens(Soil("uniform", 100.0), seg)
+    for layer_o in (0, SURFACE):
+        assert two.images(layer_o, 0) == uni.images(layer_o, 0)
+        assert two.tails(layer_o, 0) == ()

@@ -111,10 +111,23 @@ def corrected_midpoint(s1, s3, s5, ps, len_s2, po=None, len_o2=None):
     segment lengths and 2e-7 at 25 against the closed forms
     (tests/test_kernels.py).
     """
-    src = (len_s2 / 24.0) * (3.0 * ps * ps * s5 - s3)
-    if po is None:
-        return s1 + src
-    return s1 + ((len_o2 / 24.0) * (3.0 * po * po * s5 - s3) + src)
+    # written in place (one temporary per segment term); the same operations in the same order as
+    # s1 + ((Lo^2/24) (3 po po S5 - S3) + (Ls^2/24) (3 ps ps S5 - S3))
+    out = np.multiply(3.0, ps)
+    out *= ps
+    out *= s5
+    out -= s3
+    out *= len_s2 / 24.0
+    if po is not None:
+        obs = np.multiply(3.0, po)
+        obs *= po
+        obs *= s5
+        obs -= s3
+        obs *= len_o2 / 24.0
+        obs += out
+        out = obs
+    out += s1
+    return out
 
 
 def _dot(u: np.ndarray, v: np.ndarray) -> np.ndarray:
@@ -216,16 +229,20 @@ def _leading_sums(images: Sequence[Image], d2, dz_of, r2, weight_mask=None):
     s1 = s3 = s5 = None
     for img in images:
         dz = dz_of(img)
-        rr = d2 + dz * dz + r2
-        inv = 1.0 / np.sqrt(rr)
-        inv3 = inv / rr
+        t = d2 + dz * dz
+        t += r2
+        np.divide(1.0, t, out=t)  # 1 / R^2
+        inv = np.sqrt(t)
         w = img.weight_ohm_m if weight_mask is None else np.where(weight_mask, img.weight_ohm_m, 0.0)
+        inv *= w
+        inv3 = inv * t
+        inv5 = np.multiply(inv3, t, out=t)
         if s1 is None:
-            s1, s3, s5 = w * inv, w * inv3, w * inv3 / rr
+            s1, s3, s5 = inv, inv3, inv5
         else:
-            s1 += w * inv
-            s3 += w * inv3
-            s5 += w * inv3 / rr
+            s1 += inv
+            s3 += inv3
+            s5 += inv5
     if s1 is None:
         s1, s3, s5 = np.zeros(np.shape(d2)), np.zeros(np.shape(d2)), np.zeros(np.shape(d2))
     return s1, s3, s5
@@ -584,11 +601,11 @@ class Operator:
             vert = self.vertical[sel]
             vsel, vq = sel[vert], q[vert]
             sel, q = sel[~vert], q[~vert]
-            far_ok, groups = self._point_groups(sel, layer_s) if sel.size else (None, [])
+            src_data = self._point_sources(sel, layer_s) if sel.size else None
             for p0 in range(0, m, rows):
                 pp = pts[p0 : p0 + rows]
                 if sel.size:
-                    out[p0 : p0 + rows] += self._point_block(pp, sel, layer_s, far_ok, groups) @ q
+                    out[p0 : p0 + rows] += self._point_block(pp, sel, layer_s, src_data) @ q
                 if vsel.size:
                     out[p0 : p0 + rows] += self._point_vertical(pp, vsel, layer_s) @ vq
         return out
@@ -622,6 +639,24 @@ class Operator:
                     acc += (wi * tail.weight_ohm_m * length)[None, :] * g.tail_sum(d, v).reshape(d2.shape)
         return acc / (4.0 * np.pi * length)[None, :]
 
+    def _point_sources(self, sel: np.ndarray, layer_s: int) -> dict:
+        """What the point rules need of source segments ``sel`` (all in layer ``layer_s``)."""
+        length = self.length[sel]
+        l2 = (length * length)[None, :]
+        far_ok, groups = self._point_groups(sel, layer_s)
+        mid = self.mid[sel]
+        return {
+            "mid": mid,
+            "e": self.unit[sel],
+            "l2": l2,
+            "near_d2": (POINT_FAR_RATIO * POINT_FAR_RATIO) * FAR_MARGIN * l2,
+            "far_ok": far_ok[None, :],
+            "groups": groups,
+            "zs": mid[:, 2],
+            "r2": (self.segments.radius[sel] ** 2)[None, :],
+            "leading": self.greens.leading_images(SURFACE, layer_s),
+        }
+
     def _point_groups(self, sel: np.ndarray, layer_s: int) -> tuple[np.ndarray, list]:
         """Sources of ``sel`` that take the far rule from surface points, and their radial sums."""
         ok = self.horizontal[sel].copy()
@@ -643,24 +678,29 @@ class Operator:
                     groups.append((tables[k], cols))
         return ok, groups
 
-    def _point_block(self, pp: np.ndarray, sel: np.ndarray, layer_s: int, far_ok: np.ndarray, groups) -> np.ndarray:
+    def _point_block(self, pp: np.ndarray, sel: np.ndarray, layer_s: int, src: dict) -> np.ndarray:
         """Potential per unit current at surface points ``pp`` of segments ``sel``, shape (len(pp), len(sel))."""
-        seg = self.segments
-        mid = self.mid[sel]
-        e = self.unit[sel]
-        length = self.length[sel]
-        l2 = (length * length)[None, :]
+        mid, e = src["mid"], src["e"]
         dx = pp[:, 0, None] - mid[None, :, 0]
         dy = pp[:, 1, None] - mid[None, :, 1]
-        d2 = dx * dx + dy * dy
-        general = (d2 < (POINT_FAR_RATIO * POINT_FAR_RATIO) * FAR_MARGIN * l2) | ~far_ok[None, :]
-        ps = dx * e[None, :, 0] + dy * e[None, :, 1]
-        zs = mid[:, 2]
-        r2 = (seg.radius[sel] ** 2)[None, :]
-        leading = self.greens.leading_images(SURFACE, layer_s)
-        s1, s3, s5 = _leading_sums(leading, d2, lambda img: img.map_depth(zs)[None, :], r2)
+        d2 = dx * dx
+        d2 += dy * dy
+        general = (d2 < src["near_d2"]) | ~src["far_ok"]
+        dx *= e[None, :, 0]
+        dy *= e[None, :, 1]
+        dx += dy
+        ps = dx  # plan offset along the segment
+        zs = src["zs"]
+        s1, s3, s5 = _leading_sums(src["leading"], d2, lambda img: img.map_depth(zs)[None, :], src["r2"])
+        groups = src["groups"]
         for table, cols in groups:
             use = ~general[:, cols]
+            if use.all():
+                t1, t3, t5 = table(np.sqrt(d2[:, cols]))
+                s1[:, cols] += t1
+                s3[:, cols] += t3
+                s5[:, cols] += t5
+                continue
             if not use.any():
                 continue
             t1, t3, t5 = table(np.sqrt(d2[:, cols][use]))
@@ -668,7 +708,8 @@ class Operator:
                 blk = s[:, cols]
                 blk[use] += t
                 s[:, cols] = blk
-        vals = corrected_midpoint(s1, s3, s5, ps, l2) / (4.0 * np.pi)
+        vals = corrected_midpoint(s1, s3, s5, ps, src["l2"])
+        vals /= 4.0 * np.pi
         if general.any():
             pi, sj = np.nonzero(general)
             p3 = np.zeros((pi.size, 3))

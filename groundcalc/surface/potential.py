@@ -32,6 +32,7 @@ __all__ = [
     "build_raster",
     "find_max_step",
     "find_max_touch",
+    "raster_potential",
     "surface_potential",
 ]
 
