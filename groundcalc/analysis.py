@@ -84,11 +84,13 @@ def plan_lines(design: Design) -> np.ndarray:
 def solve_geometry(design: Design) -> GeometryResult:
     """Segment the conductors and solve for the leakage currents."""
     t0 = time.perf_counter()
-    interface = design.soil.thickness_m if design.soil.model == "two-layer" else None
+    interfaces = design.soil.interfaces_m
+    interface = (interfaces[0] if len(interfaces) == 1 else interfaces) if interfaces else None
     conductors = design.all_conductors()
     moved: tuple[Notice, ...] = ()
-    if interface is not None:
-        conductors, moved = move_off_interface(conductors, interface)
+    for depth in interfaces:
+        conductors, more = move_off_interface(conductors, depth)
+        moved += more
     seg = segment_conductors(conductors, design.settings.segment_length_m, interface_depth_m=interface)
     if moved:
         seg = replace(seg, notices=moved + seg.notices)

@@ -83,7 +83,7 @@ def build_greens(soil: Soil, segments: Segments, margin_m: float = 0.0) -> Green
     horizontal = horizontal_mask(segments)
     layers: dict[int, tuple[float, float]] = {}
     hdepths: dict[int, tuple[float, ...]] = {}
-    for lay in (0, 1):
+    for lay in range(int(segments.layer.max()) + 1 if soil.model == "multilayer" else 2):
         sel = segments.layer == lay
         if not sel.any():
             continue
@@ -95,6 +95,10 @@ def build_greens(soil: Soil, segments: Segments, margin_m: float = 0.0) -> Green
     extent = float(np.hypot(*(span + 2.0 * margin_m)))
     length = segments.length
     ranges = DepthRanges(layers, hdepths, FAR_RATIO * float(length.max()), FAR_RATIO * float(length.min()), extent)
+    if soil.model == "multilayer":
+        from ..soil.multilayer import multilayer_greens
+
+        return multilayer_greens(soil, ranges)
     return two_layer_greens(soil, ranges)
 
 
