@@ -123,6 +123,7 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
             "reflection_coefficient": d.soil.reflection_k,
             "image_terms": sol.greens.terms,
             "green_function": sol.greens.description,
+            "layers": [{"resistivity_ohm_m": r, "thickness_m": t} for r, t in d.soil.layers] or None,
         },
         "surface_layer": None
         if d.surface_layer is None

@@ -10,7 +10,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["ALL_SHEETS", "Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "VARIANTS", "WENNER", "sheet_spec"]
+__all__ = [
+    "ALL_SHEETS",
+    "Field",
+    "KEY_SHEETS",
+    "LAYERS",
+    "SheetSpec",
+    "TABLE_SHEETS",
+    "VARIANTS",
+    "WENNER",
+    "sheet_spec",
+]
 
 
 @dataclass(frozen=True)
@@ -103,10 +113,11 @@ SOIL = SheetSpec(
             "choice",
             True,
             help="Soil model: uniform; two-layer (an upper layer of "
-            "given thickness over a lower layer of infinite depth); or fitted (a two-layer model "
-            "fitted to the readings on the 'Wenner' sheet, which must then be filled in).",
+            "given thickness over a lower layer of infinite depth); multilayer (the layers listed on "
+            "the 'Layers' sheet); or fitted (uniform, two- or three-layer, whichever the information "
+            "criterion prefers for the readings on the 'Wenner' sheet, which must then be filled in).",
             typical="uniform",
-            choices=("uniform", "two-layer", "fitted"),
+            choices=("uniform", "two-layer", "multilayer", "fitted"),
         ),
         Field(
             "Upper resistivity",
@@ -455,9 +466,30 @@ VARIANTS = SheetSpec(
     "reports the base case and every variant side by side; the geometry is solved once per soil model.",
 )
 
+LAYERS = SheetSpec(
+    "Layers",
+    "table",
+    (
+        Field("Layer", "count", True, "positive", "Layer number, 1 at the top, counting down without gaps.", "1 to 5"),
+        Field("Resistivity", "resistivity", True, "positive", "Resistivity of the layer.", "10 to 10000 ohm*m"),
+        Field(
+            "Thickness",
+            _LEN,
+            False,
+            "positive",
+            "Thickness of the layer; leave blank for the last (deepest) layer, which extends downward without end.",
+            "0.5 to 50 m",
+        ),
+    ),
+    "Horizontal soil layers from the top, one per row, used when Model = multilayer on the Soil sheet. "
+    "Two to eight layers; the last row's thickness is blank.",
+)
+
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
 TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS)
 ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS)
+TABLE_SHEETS = TABLE_SHEETS + (LAYERS,)
+ALL_SHEETS = ALL_SHEETS + (LAYERS,)
 
 
 def sheet_spec(name: str) -> SheetSpec:

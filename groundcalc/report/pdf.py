@@ -144,6 +144,11 @@ def inputs(results: Results) -> list:
             ["Lower resistivity", f"{s.rho2_ohm_m:g} ohm*m"],
             ["Reflection coefficient K", f"{s.reflection_k:+.3f}"],
         ]
+    if s.model == "multilayer":
+        soil_rows = soil_rows[:1] + [
+            [f"Layer {k}", f"{r:g} ohm*m, " + (f"{t:g} m thick" if t is not None else "to infinite depth")]
+            for k, (r, t) in enumerate(s.layers, start=1)
+        ]
     if d.surface_layer:
         soil_rows += [
             ["Surface layer", f"{d.surface_layer.rho_ohm_m:g} ohm*m, {d.surface_layer.thickness_m:g} m thick"],

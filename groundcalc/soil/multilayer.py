@@ -61,6 +61,8 @@ __all__ = [
 
 #: Each tail kind reads its own table; kind k lives on v in [k SPAN, (k + 1) SPAN).
 SPAN_M = 1.0e4
+#: Images weaker than this fraction of a term's strongest stay in its smooth remainder.
+WEIGHT_FLOOR = 1e-5
 #: Distances below this fraction of the tail's smoothing length are evaluated there.
 _D_FLOOR = 1e-4
 
@@ -360,9 +362,12 @@ def _v_max(t: Term, obox, sbox) -> float:
 def _split_series(series: Series, vmin: float, near: float) -> tuple[list[tuple[float, float]], float]:
     """Images to integrate exactly, and the extra depth of the nearest one left in the remainder."""
     items = sorted(series.terms.items())
-    explicit = [(tau, a) for tau, a in items if tau == 0.0 or vmin + tau < near][:MAX_EXPLICIT]
-    rest = [tau for tau, _ in items[len(explicit) :]]
-    gap = rest[0] if rest else series.cap
+    big = max((abs(a) for _, a in items), default=0.0)
+    explicit, rest = [], []
+    for tau, a in items:
+        keep = tau == 0.0 or (vmin + tau < near and abs(a) >= WEIGHT_FLOOR * big)
+        (explicit if keep and len(explicit) < MAX_EXPLICIT else rest).append((tau, a))
+    gap = min((tau for tau, _ in rest), default=series.cap)
     return explicit, gap
 
 
