@@ -84,8 +84,9 @@ def _compare(soil3, soil2, relabel, cond=GRID + RODS, seg_len=3.0):
 
 def test_equal_resistivities_give_uniform_soil():
     # Three equal layers against the uniform half-space images (method of images, Sunde 1968 ch. 2).
-    dz, dr, seg = _compare(multilayer([(100.0, 2.0), (100.0, 4.0), (100.0, None)]), Soil("uniform", 100.0),
-                           lambda lay: np.minimum(lay, 1))
+    dz, dr, seg = _compare(
+        multilayer([(100.0, 2.0), (100.0, 4.0), (100.0, None)]), Soil("uniform", 100.0), lambda lay: np.minimum(lay, 1)
+    )
     assert set(seg.layer.tolist()) == {0, 1, 2}  # rods cross both interfaces and are split there
     assert dz < 1e-9 and abs(dr) < 1e-9
 
@@ -113,7 +114,8 @@ def test_deep_third_layer_tends_to_two_layers():
     two = Soil("two-layer", 300.0, 2.0, 60.0)
     changes = []
     for depth in (200.0, 2000.0):
-        _, dr, _ = _compare(multilayer([(300.0, 2.0), (60.0, depth), (600.0, None)]), two,
-                            lambda lay: np.minimum(lay, 1), cond=GRID)
+        _, dr, _ = _compare(
+            multilayer([(300.0, 2.0), (60.0, depth), (600.0, None)]), two, lambda lay: np.minimum(lay, 1), cond=GRID
+        )
         changes.append(abs(dr))
     assert changes[1] < 0.2 * changes[0] and changes[1] < 2e-3

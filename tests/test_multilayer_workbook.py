@@ -72,7 +72,8 @@ def test_three_layer_resistance_lies_between_the_uniform_bounds(tmp_path):
     assert set(ml.segments.layer.tolist()) == {0, 1, 2}
     bounds = []
     for rho in (60, 900):
-        path = write_workbook(tmp_path / f"u{rho}.xlsx", soil={"Model": "uniform", "Upper resistivity [ohm*m]": rho},
-                              grids=GRID, rods=ROD)
+        path = write_workbook(
+            tmp_path / f"u{rho}.xlsx", soil={"Model": "uniform", "Upper resistivity [ohm*m]": rho}, grids=GRID, rods=ROD
+        )
         bounds.append(solve_geometry(read_design(path)).solution.resistance_ohm)
     assert bounds[0] < ml.resistance_ohm < bounds[1]

@@ -625,7 +625,8 @@ def _read_layers(wb) -> tuple[tuple[float, float | None], ...]:
                 sheet=c.sheet,
                 row=c.row,
                 column=c.column,
-                fix="Leave the last layer's thickness blank (it extends downward without end), or add the layer below it",
+                fix="Leave the last layer's thickness blank (it extends downward without end), "
+                "or add the layer below it",
             )
         if not last and h is None:
             raise InputError(

@@ -428,8 +428,12 @@ class TermTable:
         out = self.spline.ev(x, y) / np.sqrt(d * d + (v + self.g) ** 2)
         outside = (d > self.d_hi * (1 + 1e-9)) | (v < self.v_lo - 1e-9) | (v > self.v_hi + 1e-9)
         if outside.any():
-            out[outside] = np.array([self.direct_grid(np.array([a]), np.array([b]))[0, 0]
-                                     for a, b in zip(d[outside], v[outside], strict=True)])
+            out[outside] = np.array(
+                [
+                    self.direct_grid(np.array([a]), np.array([b]))[0, 0]
+                    for a, b in zip(d[outside], v[outside], strict=True)
+                ]
+            )
         return out
 
 
