@@ -173,7 +173,7 @@ def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
     """Replace a ``fitted`` soil model by the two-layer model fitted to the design's Wenner readings."""
     if design.soil.model != "fitted":
         return design, None
-    fit = fit_soil(design.wenner)
+    fit = fit_soil(design.wenner, max_layers=3)
     note = Notice(
         "soil-fitted",
         f"Soil model fitted to {len(fit.readings.spacing_m)} Wenner readings: rho1 = {fit.rho1_ohm_m:.4g} ohm*m, "
@@ -181,7 +181,8 @@ def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
         f"uniform {fit.uniform_ohm_m:.4g} ohm*m would misfit by {fit.uniform_misfit_pct:.2g} %).",
         "note",
     )
-    return replace(design, soil=fit.soil, notices=design.notices + (note,)), fit
+    chosen = Notice("soil-model-chosen", "Model = fitted: " + fit.layered.summary(), "note")
+    return replace(design, soil=fit.chosen_soil, notices=design.notices + (note, chosen)), fit
 
 
 def evaluate(

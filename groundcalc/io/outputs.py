@@ -329,6 +329,26 @@ def soil_fit_to_dict(fit) -> dict[str, Any]:
         ],
         "method": "least squares on log apparent resistivity, IEEE Std 81 two-layer Wenner series",
         "starting_points": fit.starts,
+        "layered": None
+        if getattr(fit, "layered", None) is None
+        else {
+            "criterion": fit.layered.criterion,
+            "chosen_layers": fit.layered.chosen.layers,
+            "summary": fit.layered.summary(),
+            "fits": [
+                {
+                    "layers": f.layers,
+                    "resistivities_ohm_m": list(f.profile.rho),
+                    "thicknesses_m": list(f.profile.thickness),
+                    "rms_misfit_pct": f.rms_pct,
+                    "aic": f.aic,
+                    "bic": f.bic,
+                    "parameters": f.parameters,
+                    "starting_points": f.starts,
+                }
+                for f in fit.layered.fits
+            ],
+        },
     }
 
 

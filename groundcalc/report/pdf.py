@@ -17,6 +17,7 @@ from ..io.outputs import CLOSED_FORM_NOTE, closed_form_rows
 from .charts import Series, line_chart
 from .comparison import variants_section
 from .figures import leakage_figure, plan_figure, potential_figure, step_profile, touch_figure, touch_profile
+from .soilcharts import layered_fit_flowables
 from .style import (
     BODY,
     FIT_COLOUR,
@@ -226,7 +227,7 @@ def soil_fit_section(results: Results) -> list:
         chart,
         Spacer(1, 4),
         table(rows, [35 * mm, 40 * mm, 40 * mm, 35 * mm]),
-    ]
+    ] + layered_fit_flowables(fit)
 
 
 def closed_form_section(results: Results) -> list:

@@ -70,6 +70,12 @@ def apply_variant(base: Design, variant: Variant) -> Design:
             if "upper thickness" in o
             else Soil("uniform", rho1)
         )
+    elif soil.model == "multilayer":
+        # overrides act on the top two layers; the deeper ones are kept
+        layers = list(soil.layers)
+        layers[0] = (rho1, o.get("upper thickness", layers[0][1]))
+        layers[1] = (o.get("lower resistivity", layers[1][0]), layers[1][1])
+        soil = Soil("multilayer", layers[0][0], layers[0][1], layers[1][0], layers=tuple(layers))
     else:
         soil = Soil(
             "two-layer",
@@ -106,6 +112,8 @@ def apply_variant(base: Design, variant: Variant) -> Design:
 
 
 def _soil_key(soil: Soil) -> tuple:
+    if soil.model == "multilayer":
+        return ("multilayer", soil.layers)
     return (
         (soil.model, soil.rho1_ohm_m, soil.thickness_m, soil.rho2_ohm_m)
         if soil.model == "two-layer"
