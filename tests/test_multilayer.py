@@ -16,6 +16,7 @@ from groundcalc.soil.hankel import FILTER_BASE, hankel_j0
 from groundcalc.soil.multilayer import Profile, point_potential
 
 GRID = GridSpec("g", 0, 0, 30, 30, 4, 4, 0.5, 0.01).conductors()
+SMALL = GridSpec("s", 0, 0, 10, 10, 2, 2, 0.5, 0.01).conductors()
 RODS = [Rod(f"r{i}", x, y, 0.5, 6.0, 0.016).as_conductor() for i, (x, y) in enumerate([(0, 0), (30, 0), (15, 15)])]
 
 
@@ -119,3 +120,29 @@ def test_deep_third_layer_tends_to_two_layers():
         )
         changes.append(abs(dr))
     assert changes[1] < 0.2 * changes[0] and changes[1] < 2e-3
+
+
+def test_surface_potential_of_three_layers_with_rho3_equal_rho2():
+    # Surface potential (touch and step voltages come from it) against the two-layer image series.
+    from groundcalc.surface.potential import surface_potential
+
+    soil3 = multilayer([(300.0, 2.0), (60.0, 4.0), (60.0, None)])
+    seg3 = segment_conductors(GRID + RODS, 3.0, interface_depth_m=soil3.interfaces_m).segments
+    seg2 = replace(seg3, layer=np.minimum(seg3.layer, 1))
+    s3 = solve(seg3, build_greens(soil3, seg3, 5.0))
+    s2 = solve(seg2, build_greens(Soil("two-layer", 300.0, 2.0, 60.0), seg2, 5.0))
+    xy = np.array([[x, y] for x in (-4.0, 0.3, 7.5, 15.0, 29.0, 34.0) for y in (-3.0, 0.0, 11.0, 15.2)])
+    v3, v2 = surface_potential(xy, s3, 1.0), surface_potential(xy, s2, 1.0)
+    assert np.abs(v3 / v2 - 1).max() < 1e-6
+
+
+def test_thin_middle_layer_tends_to_two_layers():
+    # A middle layer of vanishing thickness changes the resistance in proportion to its thickness.
+    two = Soil("two-layer", 300.0, 2.0, 60.0)
+    changes = []
+    for th in (0.2, 0.04):
+        _, dr, _ = _compare(
+            multilayer([(300.0, 2.0), (20.0, th), (60.0, None)]), two, lambda lay: np.minimum(lay, 1), cond=SMALL
+        )
+        changes.append(abs(dr))
+    assert changes[1] == pytest.approx(changes[0] / 5, rel=0.2) and changes[1] < 5e-3

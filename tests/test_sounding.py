@@ -1,6 +1,8 @@
 """Wenner soundings over N layers: the Stefanescu integral against the IEEE Std 81 two-layer series
 and scipy quadrature, and model selection by the information criterion."""
 
+from types import SimpleNamespace
+
 import numpy as np
 import openpyxl
 import pytest
@@ -13,7 +15,7 @@ from groundcalc.io.workbook import read_design
 from groundcalc.model import WennerReadings
 from groundcalc.soil.multilayer import Profile
 from groundcalc.soil.sounding import fit_layers, resistivity_transform, wenner_curve
-from groundcalc.soil.wenner import fit_soil, two_layer_wenner
+from groundcalc.soil.wenner import two_layer_wenner
 
 from .conftest import write_workbook
 
@@ -59,13 +61,13 @@ def test_uniform_and_limits():
 def noisy_fit():
     rng = np.random.default_rng(5)
     meas = wenner_curve(SPACINGS, THREE) * (1 + 0.03 * rng.standard_normal(SPACINGS.size))
-    return fit_soil(WennerReadings(tuple(SPACINGS), tuple(meas)), max_layers=3)
+    return fit_layers(WennerReadings(tuple(SPACINGS), tuple(meas)), 3)
 
 
 def test_three_layer_readings_with_noise_pick_three_layers(noisy_fit):
     # Synthetic three-layer readings with 3 % multiplicative noise: BIC (Schwarz 1978) must prefer three
     # layers, and the fitted curve must follow the true one within the noise.
-    snd = noisy_fit.layered
+    snd = noisy_fit
     true = wenner_curve(SPACINGS, THREE)
     assert [f.layers for f in snd.fits] == [1, 2, 3]
     assert snd.chosen.layers == 3
@@ -93,15 +95,14 @@ def _fitted_book(path):
     return p
 
 
-def test_fitted_model_takes_the_preferred_layers_and_says_so(tmp_path):
-    design, fit = resolve_soil(read_design(_fitted_book(tmp_path / "f.xlsx")))
+def test_fitted_model_takes_the_preferred_layers_and_says_so(tmp_path, capsys):
+    book = _fitted_book(tmp_path / "f.xlsx")
+    design, fit = resolve_soil(read_design(book))
     assert design.soil.model == "multilayer" and len(design.soil.layers) == 3
     notes = [n.message for n in design.notices if n.code == "soil-model-chosen"]
     assert notes and "3-layer model chosen by the Bayesian information criterion" in notes[0]
-
-
-def test_soil_command_lists_every_fit(tmp_path, capsys):
-    assert main(["soil", str(_fitted_book(tmp_path / "f.xlsx")), "--criterion", "AIC"]) == 0
+    # the soil command lists every fit and ranks them by the criterion asked for
+    assert main(["soil", str(book), "--criterion", "AIC"]) == 0
     out = capsys.readouterr().out
     assert "ranked by AIC" in out and "<- preferred" in out
     assert out.count("RMS misfit") >= 3
@@ -114,7 +115,8 @@ def test_report_pages_show_every_fit_and_the_profile(tmp_path, noisy_fit):
     from groundcalc.report.soilcharts import layered_fit_flowables
 
     out = tmp_path / "soil.pdf"
-    SimpleDocTemplate(str(out)).build(layered_fit_flowables(noisy_fit))
+    fit = SimpleNamespace(readings=noisy_fit.readings, layered=noisy_fit)
+    SimpleDocTemplate(str(out)).build(layered_fit_flowables(fit))
     text = "".join(p.extract_text() for p in PdfReader(out).pages)
     assert "3-layer fit" in text and "2-layer fit" in text and "1-layer fit" in text
     assert "Chosen profile (3 layer(s))" in text and "(to any depth)" in text

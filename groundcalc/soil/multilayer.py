@@ -146,7 +146,7 @@ class Series:
     """
 
     __slots__ = ("terms", "cap")
-    MAX_TERMS = 400
+    MAX_TERMS = 200
 
     def __init__(self, terms: dict[float, float], cap: float) -> None:
         self.terms = terms
@@ -157,7 +157,8 @@ class Series:
         return x if isinstance(x, Series) else Series({0.0: float(x)} if x != 0 else {}, cap)
 
     def _trim(self) -> Series:
-        t = {k: v for k, v in self.terms.items() if k <= self.cap and v != 0.0}
+        big = max((abs(v) for v in self.terms.values()), default=0.0)
+        t = {k: v for k, v in self.terms.items() if k <= self.cap and abs(v) > 1e-14 * big}
         if len(t) > self.MAX_TERMS:
             t = dict(sorted(t.items())[: self.MAX_TERMS])
         self.terms = t
@@ -203,7 +204,7 @@ class Series:
         power = Series({0.0: 1.0}, self.cap)
         for _ in range(200):
             power = power * rest
-            if not power.terms:
+            if not power.terms or max(abs(v) for v in power.terms.values()) < 1e-12:
                 break
             out = out + power
         return out * (1.0 / c)
