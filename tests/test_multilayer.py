@@ -146,3 +146,21 @@ def test_thin_middle_layer_tends_to_two_layers():
         )
         changes.append(abs(dr))
     assert changes[1] == pytest.approx(changes[0] / 5, rel=0.2) and changes[1] < 5e-3
+
+
+def test_five_layers_with_repeated_resistivities_equal_three_layers():
+    # Five layers whose neighbours repeat resistivities are the same soil as three layers: an
+    # internal consistency check of the recursion at N = 5, on point potentials and on the matrix.
+    p, q = _points(depth=12.0)
+    five = Profile((300.0, 60.0, 60.0, 1000.0, 1000.0), (2.0, 1.5, 2.5, 3.0))
+    three = Profile((300.0, 60.0, 1000.0), (2.0, 4.0))
+    assert np.abs(point_potential(p, q, five) / point_potential(p, q, three) - 1).max() < 1e-9
+    rod = [Rod("r", 0, 0, 0.5, 9.0, 0.016).as_conductor()]
+    dz, dr, seg = _compare(
+        multilayer(list(zip(five.rho, five.thickness + (None,), strict=True))),
+        multilayer(list(zip(three.rho, three.thickness + (None,), strict=True))),
+        lambda lay: np.array([0, 1, 1, 2, 2])[lay],
+        cond=SMALL + rod,
+    )
+    assert set(seg.layer.tolist()) == {0, 1, 2, 3, 4}
+    assert dz < 1e-6 and abs(dr) < 1e-6
