@@ -278,7 +278,9 @@ def _cmd_soil(args: argparse.Namespace) -> int:
         log.info("wrote %s", json_out)
     if design_out:
         write_design_with_soil(args.workbook, design_out, fit)
-        print(f"\nwrote {design_out} with the fitted two-layer model on its Soil sheet (the input is unchanged)")
+        layers = fit.layered.chosen.layers if fit.layered.chosen.layers >= 3 else 2
+        where = "on its Layers sheet" if layers >= 3 else "on its Soil sheet"
+        print(f"\nwrote {design_out} with the fitted {layers}-layer model {where} (the input is unchanged)")
     print(
         "\nCAUTION: a fitted soil model is only as good as the readings. Seasonal changes (frozen or dry "
         "topsoil) and soil variation across the site are not captured; a licensed engineer decides the design model."

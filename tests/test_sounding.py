@@ -102,10 +102,13 @@ def test_fitted_model_takes_the_preferred_layers_and_says_so(tmp_path, capsys):
     notes = [n.message for n in design.notices if n.code == "soil-model-chosen"]
     assert notes and "3-layer model chosen by the Bayesian information criterion" in notes[0]
     # the soil command lists every fit and ranks them by the criterion asked for
-    assert main(["soil", str(book), "--criterion", "AIC"]) == 0
+    copy = tmp_path / "f-fitted.xlsx"
+    assert main(["soil", str(book), "--criterion", "AIC", "--write-design", str(copy)]) == 0
     out = capsys.readouterr().out
     assert "ranked by AIC" in out and "<- preferred" in out
     assert out.count("RMS misfit") >= 3
+    written = read_design(copy).soil
+    assert written.model == "multilayer" and len(written.layers) == 3 and written.layers[-1][1] is None
 
 
 def test_report_pages_show_every_fit_and_the_profile(tmp_path, noisy_fit):

@@ -382,6 +382,15 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
         "upper thickness": ("Upper thickness [m]", round(fit.thickness_m, 6)),
         "lower resistivity": ("Lower resistivity [ohm*m]", round(fit.rho2_ohm_m, 6)),
     }
+    layered = getattr(fit, "layered", None)
+    if layered is not None and layered.chosen.layers >= 3:
+        _write_layers_sheet(wb, layered.chosen.profile)
+        values = {"model": ("Model", "multilayer")}
+        note = (
+            f"Fitted by groundcalc soil to the Wenner readings: {layered.chosen.layers} layers on the "
+            f"'Layers' sheet ({layered.criterion} preferred; RMS misfit {layered.chosen.rms_pct:.2g} %); "
+            "check against the site investigation."
+        )
     for row in ws.iter_rows(min_row=2):
         if row[0].value is None:
             continue
@@ -394,6 +403,21 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
     for header, val in values.values():
         ws.append([header, val, note])
     atomic_write(target, lambda tmp: wb.save(tmp))
+
+
+def _write_layers_sheet(wb, prof) -> None:
+    """Replace (or add) the Layers sheet with a fitted profile."""
+    from .schema import LAYERS
+    from .units import normalise_name
+
+    for name in list(wb.sheetnames):
+        if normalise_name(name) == normalise_name(LAYERS.name):
+            del wb[name]
+    ws = wb.create_sheet(LAYERS.name)
+    ws.append([f.header() for f in LAYERS.fields])
+    for k, rho in enumerate(prof.rho):
+        thick = round(prof.thickness[k], 6) if k < len(prof.thickness) else None
+        ws.append([k + 1, round(rho, 6), thick])
 
 
 def write_design_with_layout(source: str | Path, target: str | Path, grid, added_rods, note: str) -> None:

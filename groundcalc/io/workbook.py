@@ -591,7 +591,8 @@ def _read_layers(wb) -> tuple[tuple[float, float | None], ...]:
             "Model = multilayer needs the 'Layers' sheet, but it is missing or empty",
             sheet=SOIL.name,
             column="Value (Model)",
-            fix="Add a 'Layers' sheet with the columns " + ", ".join(f"'{x.header()}'" for x in LAYERS.fields)
+            fix="Add a 'Layers' sheet with the columns "
+            + ", ".join(f"'{x.header()}'" for x in LAYERS.fields)
             + ", one row per layer from the top, the last thickness blank",
         )
     if len(rows) > MAX_LAYERS:
