@@ -29,7 +29,7 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
     (
         "Model assumptions",
         "All conductors are bonded and at one potential (no conductor impedance); power "
-        "frequency only (no lightning or switching surges); soil idealised as uniform or two "
+        "frequency only (no lightning or switching surges); soil idealised as uniform or "
         "horizontal layers; no transferred potentials through fences, pipes, rails, cable "
         "sheaths or neutrals; no other buried metal nearby.",
     ),
@@ -42,5 +42,11 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "Where touch and step are checked",
         "Touch voltage is checked over the grid footprint (the area enclosed by the outer "
         "conductors); metal that can be touched outside it, such as a fence, needs its own check.",
+    ),
+    (
+        "Layered soil models",
+        "A fitted third layer is preferred by an information criterion, not proven; layers deeper "
+        "than the longest Wenner spacing can see are not resolved, yet they can change the "
+        "resistance of a large grid a lot.",
     ),
 )
