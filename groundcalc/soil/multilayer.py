@@ -48,7 +48,7 @@ from scipy.interpolate import RectBivariateSpline, make_interp_spline
 
 from ..model import Soil
 from .greens import Greens, Image, PairKernel, Tail
-from .hankel import hankel_j0
+from .hankel import SMALL_R, hankel_j0, hankel_j0_near_axis
 from .twolayer import MAX_DEPTH_GROUPS, MAX_EXPLICIT, DepthRanges, depth_key
 
 __all__ = [
@@ -418,8 +418,18 @@ class TermTable:
             return c[None, ...] * np.exp(-lam[None, ...] * v[:, None, None])
 
         f0 = self.rem(Recursion(self.prof, np.zeros(1)))[0]
-        out = hankel_j0(kern, dd, at_zero=np.full((v.size, 1), f0))
-        return out.T
+        out = hankel_j0(kern, dd, at_zero=np.full((v.size, 1), f0)).T
+        a = v[None, :] + self.g
+        near = d[:, None] < SMALL_R * a
+        if near.any():
+            dn = np.broadcast_to(d[:, None], near.shape)[near]
+            vn = np.broadcast_to(v[None, :], near.shape)[near]
+
+            def kn(lam):
+                return self.rem(Recursion(self.prof, lam)) * np.exp(-lam * vn[:, None])
+
+            out[near] = hankel_j0_near_axis(kn, dn, vn + self.g)
+        return out
 
     def __call__(self, d: np.ndarray, v: np.ndarray) -> np.ndarray:
         d = np.asarray(d, dtype=float)
@@ -513,7 +523,11 @@ class RadialTable:
 
             rec0 = Recursion(self.prof, np.zeros(1))
             f0 = float(sum(rem(rec0)[0] for rem, _ in self.tails))
-            out += hankel_j0(kern, dd, at_zero=f0)
+            val = hankel_j0(kern, dd, at_zero=f0)
+            near = d < SMALL_R * self.floor
+            if near.any():
+                val[near] = hankel_j0_near_axis(kern, d[near], np.full(int(near.sum()), self.floor))
+            out += val
         return out
 
     def __call__(self, d: np.ndarray, clamp: bool = False):
@@ -722,7 +736,20 @@ def point_potential(p: np.ndarray, q: np.ndarray, soil: Soil | Profile) -> np.nd
 
         rec0 = Recursion(prof, np.zeros(1))
         f0 = sum(t.coef(rec0)[0] for t in terms) * np.ones(dm.shape)
-        val = hankel_j0(kern, dd, at_zero=f0) if terms else 0.0
+        val = hankel_j0(kern, dd, at_zero=f0) if terms else np.zeros(dm.shape)
+        vmin = np.min(vv, axis=0) if vv else np.zeros(dm.shape)
+        near = (dm < SMALL_R * vmin) & (vmin > 0.0)
+        if terms and near.any():
+            vn = [v[near] for v in vv]
+
+            def kn(lam, terms=terms, vn=vn):
+                rec = Recursion(prof, lam)
+                acc = np.zeros(lam.shape)
+                for t, v in zip(terms, vn, strict=True):
+                    acc += t.coef(rec) * np.exp(-lam * v[:, None])
+                return acc
+
+            val[near] = hankel_j0_near_axis(kn, dm[near], vmin[near])
         if i == s:
             val = val + prof.rho[s] / np.hypot(dm, zm - zsm)
         out[m] = val
