@@ -89,11 +89,13 @@ def solve_geometry(design: Design) -> GeometryResult:
 
         return solve_metal_geometry(design)
     t0 = time.perf_counter()
-    interface = design.soil.thickness_m if design.soil.model == "two-layer" else None
+    interfaces = design.soil.interfaces_m
+    interface = (interfaces[0] if len(interfaces) == 1 else interfaces) if interfaces else None
     conductors = design.all_conductors()
     moved: tuple[Notice, ...] = ()
-    if interface is not None:
-        conductors, moved = move_off_interface(conductors, interface)
+    for depth in interfaces:
+        conductors, more = move_off_interface(conductors, depth)
+        moved += more
     seg = segment_conductors(conductors, design.settings.segment_length_m, interface_depth_m=interface)
     if moved:
         seg = replace(seg, notices=moved + seg.notices)
@@ -178,7 +180,7 @@ def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
     """Replace a ``fitted`` soil model by the two-layer model fitted to the design's Wenner readings."""
     if design.soil.model != "fitted":
         return design, None
-    fit = fit_soil(design.wenner)
+    fit = fit_soil(design.wenner, max_layers=3)
     note = Notice(
         "soil-fitted",
         f"Soil model fitted to {len(fit.readings.spacing_m)} Wenner readings: rho1 = {fit.rho1_ohm_m:.4g} ohm*m, "
@@ -186,7 +188,8 @@ def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
         f"uniform {fit.uniform_ohm_m:.4g} ohm*m would misfit by {fit.uniform_misfit_pct:.2g} %).",
         "note",
     )
-    return replace(design, soil=fit.soil, notices=design.notices + (note,)), fit
+    chosen = Notice("soil-model-chosen", "Model = fitted: " + fit.layered.summary(), "note")
+    return replace(design, soil=fit.chosen_soil, notices=design.notices + (note, chosen)), fit
 
 
 def evaluate(

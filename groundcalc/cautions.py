@@ -30,7 +30,7 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "Model assumptions",
         "The grid is at one potential (no conductor impedance); metal on the Metal and Fences sheets "
         "is at its own potential (bonded at the GPR, or floating); power frequency only (no lightning "
-        "or switching surges); soil idealised as uniform or two horizontal layers; transferred "
+        "or switching surges); soil idealised as uniform or horizontal layers; transferred "
         "potentials beyond the modelled length of fences, pipes and rails, and through cable "
         "sheaths, neutrals or other impedances, are not modelled; other buried metal only as entered.",
     ),
@@ -56,5 +56,11 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "The error estimate compares with a solve at twice the segment length and covers the "
         "segment length only, not the thin-wire model at rod ends (about 0.1 %), the soil model or "
         "the raster search. Above 1 %: shorten the segments.",
+    ),
+    (
+        "Layered soil models",
+        "A fitted third layer is preferred by an information criterion, not proven; layers deeper "
+        "than the longest Wenner spacing can see are not resolved, yet they can change the "
+        "resistance of a large grid a lot.",
     ),
 )

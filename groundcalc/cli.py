@@ -310,6 +310,18 @@ def soil_fit_lines(fit) -> list[str]:
     ]
     for a, m, p, dev, udev in fit.table():
         lines.append(f"  {a:11.3g}  {m:16.4g}  {p:17.4g}  {dev:+8.2f}  {udev:+16.2f}")
+    if getattr(fit, "layered", None) is not None:
+        lines += ["", f"Layered models (Stefanescu integral), ranked by {fit.layered.criterion}:"]
+        lines.append(
+            f"  {'Layers':>6s}  {'RMS misfit [%]':>14s}  {'AIC':>8s}  {'BIC':>8s}  "
+            "Resistivities [ohm*m] / thicknesses [m]"
+        )
+        for f in fit.layered.fits:
+            mark = "  <- preferred" if f is fit.layered.chosen else ""
+            rho = ", ".join(f"{r:.4g}" for r in f.profile.rho)
+            th = ", ".join(f"{t:.3g}" for t in f.profile.thickness) or "-"
+            lines.append(f"  {f.layers:6d}  {f.rms_pct:14.2f}  {f.aic:8.1f}  {f.bic:8.1f}  {rho} / {th}{mark}")
+        lines.append("  " + fit.layered.summary())
     return lines
 
 
@@ -325,10 +337,10 @@ def _cmd_soil(args: argparse.Namespace) -> int:
     json_out = check_output(args.json, inputs, args.overwrite, "JSON") if args.json else None
     check_distinct({"design copy": design_out, "JSON": json_out})
     readings = read_wenner(args.workbook)
-    log.info("fitting uniform and two-layer models to %d readings", len(readings.spacing_m))
-    fit = fit_soil(readings)
+    log.info("fitting 1 to %d layers to %d readings", args.max_layers, len(readings.spacing_m))
+    fit = fit_soil(readings, max_layers=args.max_layers, criterion=args.criterion)
     print("\n".join(soil_fit_lines(fit)))
-    if fit.misfit_pct > 10.0:
+    if fit.misfit_pct > 10.0 and fit.layered.chosen.layers <= 2:
         print(
             f"\nWARNING: the two-layer model misfits the readings by {fit.misfit_pct:.1f} % RMS. "
             "The soil may have more "
@@ -339,7 +351,9 @@ def _cmd_soil(args: argparse.Namespace) -> int:
         log.info("wrote %s", json_out)
     if design_out:
         write_design_with_soil(args.workbook, design_out, fit)
-        print(f"\nwrote {design_out} with the fitted two-layer model on its Soil sheet (the input is unchanged)")
+        layers = fit.layered.chosen.layers if fit.layered.chosen.layers >= 3 else 2
+        where = "on its Layers sheet" if layers >= 3 else "on its Soil sheet"
+        print(f"\nwrote {design_out} with the fitted {layers}-layer model {where} (the input is unchanged)")
     print(
         "\nCAUTION: a fitted soil model is only as good as the readings. Seasonal changes (frozen or dry "
         "topsoil) and soil variation across the site are not captured; a licensed engineer decides the design model."
@@ -553,9 +567,13 @@ def _parser() -> argparse.ArgumentParser:
     i.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     i.set_defaults(func=_cmd_import)
 
-    s = sub.add_parser("soil", help="fit uniform and two-layer soil models to Wenner readings")
+    s = sub.add_parser("soil", help="fit uniform, two- and three-layer soil models to Wenner readings")
     s.add_argument("workbook", help="workbook with a 'Wenner' sheet (.xlsx)")
     s.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the fitted model")
+    s.add_argument("--max-layers", type=int, choices=(3, 4), default=3, help="fit 1 to this many layers (default 3)")
+    s.add_argument(
+        "--criterion", choices=("BIC", "AIC"), default="BIC", help="information criterion that ranks them (default BIC)"
+    )
     _add_common(s, None, "write the fit to this file")
     s.set_defaults(func=_cmd_soil)
 

@@ -83,12 +83,30 @@ class Soil:
         Upper layer thickness H (two-layer only). [m]
     rho2_ohm_m : float or None
         Lower layer resistivity (two-layer only). [ohm*m]
+    layers : tuple of (float, float or None)
+        ``"multilayer"`` only: (resistivity [ohm*m], thickness [m]) of every
+        layer from the top, the last thickness ``None``; ``rho1_ohm_m``,
+        ``thickness_m`` and ``rho2_ohm_m`` then describe the top two layers.
     """
 
     model: str = "uniform"
     rho1_ohm_m: float | None = None
     thickness_m: float | None = None
     rho2_ohm_m: float | None = None
+    layers: tuple[tuple[float, float | None], ...] = ()
+
+    @property
+    def interfaces_m(self) -> tuple[float, ...]:
+        """Depths of the layer interfaces from the top. [m]"""
+        if self.model == "multilayer" and self.layers:
+            out, z = [], 0.0
+            for _, t in self.layers[:-1]:
+                z += float(t)
+                out.append(z)
+            return tuple(out)
+        if self.model == "two-layer" and self.thickness_m is not None:
+            return (float(self.thickness_m),)
+        return ()
 
     @property
     def is_fitted(self) -> bool:
@@ -98,6 +116,8 @@ class Soil:
     @property
     def is_uniform(self) -> bool:
         """True when the soil behaves as one uniform half-space."""
+        if self.model == "multilayer":
+            return len({r for r, _ in self.layers}) <= 1
         return self.model == "uniform" or self.rho2_ohm_m == self.rho1_ohm_m
 
     @property

@@ -166,8 +166,13 @@ def _check_soil(design: Design, notices: list[Notice]) -> None:
     soil = design.soil
     if soil is None:
         raise _err("the design has no soil model", "soil", "Give a Soil, e.g. Soil('uniform', 100.0)")
-    if soil.model not in ("uniform", "two-layer", "fitted"):
-        raise _err(f"soil model '{soil.model}' is not known", "soil.model", "Use uniform, two-layer or fitted")
+    if soil.model not in ("uniform", "two-layer", "multilayer", "fitted"):
+        raise _err(
+            f"soil model '{soil.model}' is not known", "soil.model", "Use uniform, two-layer, multilayer or fitted"
+        )
+    if soil.model == "multilayer":
+        _check_layers(soil, notices)
+        return
     if soil.model == "fitted":
         if design.wenner is None:
             raise _err("a fitted soil model needs Wenner readings", "soil.model", "Give the Wenner readings")
@@ -191,6 +196,37 @@ def _check_soil(design: Design, notices: list[Notice]) -> None:
                 f"Accepted |K| <= {MAX_REFLECTION} (a ratio of at most about 2000, common practice); check the "
                 "units of the resistivities, or model the extreme layer as an insulator or a perfect conductor "
                 "by a more moderate ratio",
+            )
+
+
+def _check_layers(soil, notices: list[Notice]) -> None:
+    """Every layer of a multilayer soil in range, the last one without end, adjacent layers not extreme."""
+    layers = tuple(soil.layers)
+    if len(layers) < 2:
+        raise _err(
+            "a multilayer soil needs at least two layers",
+            "soil.layers",
+            "Give two to eight layers, or use Model = uniform",
+        )
+    for j, (rho, h) in enumerate(layers, start=1):
+        _check_range(rho, "soil.rho_ohm_m", f"resistivity of layer {j}", "ohm*m", "soil.layers", notices)
+        if j < len(layers):
+            if h is None:
+                raise _err(f"layer {j} has no thickness", "soil.layers", "Only the last layer has no thickness")
+            _check_range(h, "soil.thickness_m", f"thickness of layer {j}", "m", "soil.layers", notices)
+        elif h is not None:
+            raise _err(
+                f"the last layer ({j}) has a thickness", "soil.layers", "Leave the last layer's thickness blank"
+            )
+    for j in range(len(layers) - 1):
+        r1, r2 = layers[j][0], layers[j + 1][0]
+        k = (r2 - r1) / (r2 + r1)
+        if abs(k) > MAX_REFLECTION:
+            raise _err(
+                f"the reflection coefficient K = {k:+.6f} between layers {j + 1} and {j + 2} is within "
+                f"{1 - abs(k):.2g} of {'+1' if k > 0 else '-1'}",
+                "soil.layers",
+                f"Accepted |K| <= {MAX_REFLECTION} (a ratio of at most about 2000, common practice); check the units",
             )
 
 

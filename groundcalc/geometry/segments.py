@@ -69,7 +69,8 @@ class Segments:
     conductor : numpy.ndarray of int, shape (n,)
         Index of the conductor each segment belongs to.
     layer : numpy.ndarray of int, shape (n,)
-        0 for the upper (or only) soil layer, 1 for the lower.
+        Soil layer of the segment: 0 for the upper (or only) layer, 1 for the
+        next, and so on.
     """
 
     a: np.ndarray
@@ -341,9 +342,9 @@ def segment_conductors(
         All buried conductors and rods.
     target_length_m : float
         Maximum segment length. [m]
-    interface_depth_m : float, optional
-        Depth of a two-layer soil interface; conductors crossing it are split
-        there. [m]
+    interface_depth_m : float or sequence of float, optional
+        Depth of the soil interface(s); conductors crossing one are split
+        there, and ``layer`` counts the interfaces above a segment. [m]
     touch_tolerance_m : float
         Gap below which two conductors (beyond their radii) are taken as
         joined. [m]
@@ -399,11 +400,12 @@ def segment_conductors(
             )
         )
 
-    if interface_depth_m is not None:
+    depths = () if interface_depth_m is None else tuple(np.atleast_1d(np.asarray(interface_depth_m, dtype=float)))
+    for h in depths:
         z0, z1 = p0[:, 2], p1[:, 2]
-        crosses = (np.minimum(z0, z1) < interface_depth_m) & (np.maximum(z0, z1) > interface_depth_m)
+        crosses = (np.minimum(z0, z1) < h) & (np.maximum(z0, z1) > h)
         for i in np.flatnonzero(crosses):
-            splits[i].append(float((interface_depth_m - z0[i]) / (z1[i] - z0[i])))
+            splits[i].append(float((h - z0[i]) / (z1[i] - z0[i])))
 
     graded_ends = _free_ends(p0, p1, radius, touch_tolerance_m) if grading else np.zeros((m, 2), dtype=bool)
     seg_a: list[np.ndarray] = []
@@ -475,8 +477,8 @@ def segment_conductors(
     b = np.concatenate(seg_b)
     mid_z = 0.5 * (a[:, 2] + b[:, 2])
     layer = np.zeros(a.shape[0], dtype=np.int64)
-    if interface_depth_m is not None:
-        layer[mid_z > interface_depth_m] = 1
+    for h in depths:
+        layer += mid_z > h
     segs = Segments(
         a=a,
         b=b,

@@ -160,6 +160,7 @@ def results_to_dict(results: Results, input_path: str | Path | None = None) -> d
             "reflection_coefficient": d.soil.reflection_k,
             "image_terms": sol.greens.terms,
             "green_function": sol.greens.description,
+            "layers": [{"resistivity_ohm_m": r, "thickness_m": t} for r, t in d.soil.layers] or None,
         },
         "surface_layer": None
         if d.surface_layer is None
@@ -389,6 +390,26 @@ def soil_fit_to_dict(fit) -> dict[str, Any]:
         ],
         "method": "least squares on log apparent resistivity, IEEE Std 81 two-layer Wenner series",
         "starting_points": fit.starts,
+        "layered": None
+        if getattr(fit, "layered", None) is None
+        else {
+            "criterion": fit.layered.criterion,
+            "chosen_layers": fit.layered.chosen.layers,
+            "summary": fit.layered.summary(),
+            "fits": [
+                {
+                    "layers": f.layers,
+                    "resistivities_ohm_m": list(f.profile.rho),
+                    "thicknesses_m": list(f.profile.thickness),
+                    "rms_misfit_pct": f.rms_pct,
+                    "aic": f.aic,
+                    "bic": f.bic,
+                    "parameters": f.parameters,
+                    "starting_points": f.starts,
+                }
+                for f in fit.layered.fits
+            ],
+        },
     }
 
 
@@ -422,6 +443,15 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
         "upper thickness": ("Upper thickness [m]", round(fit.thickness_m, 6)),
         "lower resistivity": ("Lower resistivity [ohm*m]", round(fit.rho2_ohm_m, 6)),
     }
+    layered = getattr(fit, "layered", None)
+    if layered is not None and layered.chosen.layers >= 3:
+        _write_layers_sheet(wb, layered.chosen.profile)
+        values = {"model": ("Model", "multilayer")}
+        note = (
+            f"Fitted by groundcalc soil to the Wenner readings: {layered.chosen.layers} layers on the "
+            f"'Layers' sheet ({layered.criterion} preferred; RMS misfit {layered.chosen.rms_pct:.2g} %); "
+            "check against the site investigation."
+        )
     heads = [normalise_name(c.value) if c.value is not None else "" for c in ws[1]]
     key_names = {normalise_name(SOIL.key_header), "quantity", "field", "item"}
     kcol = next((i for i, h in enumerate(heads) if h in key_names), 0) + 1  # the sheet's own layout
@@ -443,6 +473,21 @@ def write_design_with_soil(source: str | Path, target: str | Path, fit) -> None:
         ws.cell(row=r, column=vcol, value=val)
         ws.cell(row=r, column=ncol, value=note)
     atomic_write(target, lambda tmp: wb.save(tmp))
+
+
+def _write_layers_sheet(wb, prof) -> None:
+    """Replace (or add) the Layers sheet with a fitted profile."""
+    from .schema import LAYERS
+    from .units import normalise_name
+
+    for name in list(wb.sheetnames):
+        if normalise_name(name) == normalise_name(LAYERS.name):
+            del wb[name]
+    ws = wb.create_sheet(LAYERS.name)
+    ws.append([f.header() for f in LAYERS.fields])
+    for k, rho in enumerate(prof.rho):
+        thick = round(prof.thickness[k], 6) if k < len(prof.thickness) else None
+        ws.append([k + 1, round(rho, 6), thick])
 
 
 def write_design_with_layout(source: str | Path, target: str | Path, grid, added_rods, note: str) -> None:

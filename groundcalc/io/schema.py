@@ -15,6 +15,7 @@ __all__ = [
     "METAL_SHEETS",
     "Field",
     "KEY_SHEETS",
+    "LAYERS",
     "SheetSpec",
     "TABLE_SHEETS",
     "VARIANTS",
@@ -113,10 +114,11 @@ SOIL = SheetSpec(
             "choice",
             True,
             help="Soil model: uniform; two-layer (an upper layer of "
-            "given thickness over a lower layer of infinite depth); or fitted (a two-layer model "
-            "fitted to the readings on the 'Wenner' sheet, which must then be filled in).",
+            "given thickness over a lower layer of infinite depth); multilayer (the layers listed on "
+            "the 'Layers' sheet); or fitted (uniform, two- or three-layer, whichever the information "
+            "criterion prefers for the readings on the 'Wenner' sheet, which must then be filled in).",
             typical="uniform",
-            choices=("uniform", "two-layer", "fitted"),
+            choices=("uniform", "two-layer", "multilayer", "fitted"),
         ),
         Field(
             "Upper resistivity",
@@ -612,11 +614,30 @@ PROFILES = SheetSpec(
     "Optional: straight lines along which the surface potential and touch voltage are plotted and listed.",
 )
 
+LAYERS = SheetSpec(
+    "Layers",
+    "table",
+    (
+        Field("Layer", "count", True, "positive", "Layer number, 1 at the top, counting down without gaps.", "1 to 5"),
+        Field("Resistivity", "resistivity", True, "positive", "Resistivity of the layer.", "10 to 10000 ohm*m"),
+        Field(
+            "Thickness",
+            _LEN,
+            False,
+            "positive",
+            "Thickness of the layer; leave blank for the last (deepest) layer, which extends downward without end.",
+            "0.5 to 50 m",
+        ),
+    ),
+    "Horizontal soil layers from the top, one per row, used when Model = multilayer on the Soil sheet. "
+    "Two to eight layers; the last row's thickness is blank.",
+)
+
 METAL_SHEETS = (METAL, FENCES, CHECK_POINTS, CHECK_AREAS, PROFILES)
 
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
-TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS) + METAL_SHEETS
-ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS) + METAL_SHEETS
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS, LAYERS) + METAL_SHEETS
+ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS, LAYERS) + METAL_SHEETS
 
 
 def sheet_spec(name: str) -> SheetSpec:

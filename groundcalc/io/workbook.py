@@ -40,7 +40,7 @@ from ..model import (
 from ..safety.materials import DEFAULT_MATERIAL, MATERIALS, material
 from ..soil.wenner import wenner_apparent_resistivity
 from ..validation import check_wenner, prepare
-from .schema import CONDUCTORS, FAULT, GRIDS, PROJECT, RODS, SETTINGS, SOIL, VARIANTS, WENNER, Field, SheetSpec
+from .schema import CONDUCTORS, FAULT, GRIDS, LAYERS, PROJECT, RODS, SETTINGS, SOIL, VARIANTS, WENNER, Field, SheetSpec
 from .sheetcheck import check_layout, parse_text_number
 from .units import UNITS, normalise_name, split_header, to_si, unit_case_problem
 
@@ -459,6 +459,7 @@ def value(cells: dict[str, Cell], field: Field, default: Any = None) -> Any:
         text = {"two layer": "two-layer", "2-layer": "two-layer", "twolayer": "two-layer", "2 layer": "two-layer"}.get(
             text, text
         )
+        text = {"multi-layer": "multilayer", "multi layer": "multilayer", "n-layer": "multilayer"}.get(text, text)
         if text not in field.choices:
             raise InputError(
                 f"'{cell.value}' is not a valid {field.name.lower()}",
@@ -561,6 +562,22 @@ def _read_soil(wb, notices: list[Notice]) -> tuple[Soil, SurfaceLayer | None]:
         rho_s = value(cells, f["surface layer resistivity"])
         h_s = value(cells, f["surface layer thickness"])
         return soil, _surface(cells, f, rho_s, h_s)
+    if model == "multilayer":
+        for key in ("upper resistivity", "upper thickness", "lower resistivity"):
+            if value(cells, f[key]) is not None:
+                notices.append(
+                    Notice(
+                        "ignored-input",
+                        f"Soil '{f[key].name}' is ignored because Model = multilayer (the layers are read "
+                        "from the 'Layers' sheet).",
+                        "note",
+                    )
+                )
+        layers = _read_layers(wb)
+        soil = Soil("multilayer", layers[0][0], layers[0][1], layers[1][0], layers=layers)
+        rho_s = value(cells, f["surface layer resistivity"])
+        h_s = value(cells, f["surface layer thickness"])
+        return soil, _surface(cells, f, rho_s, h_s)
     rho1 = req("upper resistivity", "")
     if model == "uniform":
         for key in ("upper thickness", "lower resistivity"):
@@ -579,6 +596,77 @@ def _read_soil(wb, notices: list[Notice]) -> tuple[Soil, SurfaceLayer | None]:
     rho_s = value(cells, f["surface layer resistivity"])
     h_s = value(cells, f["surface layer thickness"])
     return soil, _surface(cells, f, rho_s, h_s)
+
+
+#: Most layers the Layers sheet accepts.
+MAX_LAYERS = 8
+
+
+def _read_layers(wb) -> tuple[tuple[float, float | None], ...]:
+    """The Layers sheet: (resistivity, thickness) from the top, the last thickness None."""
+    f = _field_map(LAYERS)
+    rows = read_table(wb, LAYERS)
+    if not rows:
+        raise InputError(
+            "Model = multilayer needs the 'Layers' sheet, but it is missing or empty",
+            sheet=SOIL.name,
+            column="Value (Model)",
+            fix="Add a 'Layers' sheet with the columns "
+            + ", ".join(f"'{x.header()}'" for x in LAYERS.fields)
+            + ", one row per layer from the top, the last thickness blank",
+        )
+    if len(rows) > MAX_LAYERS:
+        raise InputError(
+            f"{len(rows)} layers given; at most {MAX_LAYERS} are supported",
+            sheet=LAYERS.name,
+            row=_row_of(rows[MAX_LAYERS]),
+            column="'Layer' (A)",
+            fix="Merge thin layers of similar resistivity",
+        )
+    out: list[tuple[float, float | None]] = []
+    for k, cells in enumerate(rows):
+        row = _row_of(cells)
+        num = _required(cells, LAYERS, f["layer"], row)
+        if num != k + 1:
+            c = cells["layer"]
+            raise InputError(
+                f"layer number {num} on this row, expected {k + 1}",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="Number the layers 1, 2, 3 ... from the top, one row each, in order",
+            )
+        rho = _required(cells, LAYERS, f["resistivity"], row)
+        h = value(cells, f["thickness"]) if "thickness" in cells else None
+        last = k == len(rows) - 1
+        if last and h is not None:
+            c = cells["thickness"]
+            raise InputError(
+                f"the last layer (layer {num}) has a thickness ({h:g} m)",
+                sheet=c.sheet,
+                row=c.row,
+                column=c.column,
+                fix="Leave the last layer's thickness blank (it extends downward without end), "
+                "or add the layer below it",
+            )
+        if not last and h is None:
+            raise InputError(
+                f"layer {num} has no thickness",
+                sheet=LAYERS.name,
+                row=row,
+                column=cells["thickness"].column if "thickness" in cells else "'Thickness [m]' (C)",
+                fix="Give the thickness of every layer except the last",
+            )
+        out.append((float(rho), None if last else float(h)))
+    if len(out) < 2:
+        raise InputError(
+            "only one layer given on the 'Layers' sheet",
+            sheet=LAYERS.name,
+            row=_row_of(rows[0]),
+            column="'Layer' (A)",
+            fix="Give two or more layers, or choose Model = uniform on the Soil sheet",
+        )
+    return tuple(out)
 
 
 def _surface(cells, f, rho_s, h_s) -> SurfaceLayer | None:

@@ -271,7 +271,7 @@ def build_greens(soil: Soil, segments: Segments, margin_m: float = 0.0) -> Green
     horizontal = horizontal_mask(segments)
     layers: dict[int, tuple[float, float]] = {}
     hdepths: dict[int, tuple[float, ...]] = {}
-    for lay in (0, 1):
+    for lay in range(int(segments.layer.max()) + 1):
         sel = segments.layer == lay
         if not sel.any():
             continue

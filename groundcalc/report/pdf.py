@@ -17,6 +17,7 @@ from ..version import __version__
 from .charts import Series, line_chart
 from .comparison import variants_section
 from .figures import leakage_figure, plan_figure, potential_figure, step_profile, touch_figure, touch_profile
+from .soilcharts import layered_fit_flowables
 from .style import (
     BODY,
     FIT_COLOUR,
@@ -159,6 +160,11 @@ def inputs(results: Results) -> list:
             ["Lower resistivity", f"{s.rho2_ohm_m:g} ohm*m"],
             ["Reflection coefficient K", f"{s.reflection_k:+.3f}"],
         ]
+    if s.model == "multilayer":
+        soil_rows = soil_rows[:1] + [
+            [f"Layer {k}", f"{r:g} ohm*m, " + (f"{t:g} m thick" if t is not None else "to infinite depth")]
+            for k, (r, t) in enumerate(s.layers, start=1)
+        ]
     if d.surface_layer:
         soil_rows += [
             ["Surface layer", f"{d.surface_layer.rho_ohm_m:g} ohm*m, {d.surface_layer.thickness_m:g} m thick"],
@@ -245,7 +251,7 @@ def soil_fit_section(results: Results) -> list:
         chart,
         Spacer(1, 4),
         table(rows, [35 * mm, 40 * mm, 40 * mm, 35 * mm]),
-    ]
+    ] + layered_fit_flowables(fit)
 
 
 def closed_form_section(results: Results) -> list:

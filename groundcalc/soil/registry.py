@@ -12,6 +12,7 @@ from collections.abc import Callable
 
 from ..model import Soil
 from .greens import DepthRanges, GreensFunction
+from .multilayer import multilayer_greens
 from .twolayer import two_layer_greens
 from .uniform import uniform_greens
 
@@ -57,3 +58,4 @@ def greens_for(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> GreensFunc
 
 register_greens("uniform", uniform_greens)
 register_greens("two-layer", two_layer_greens)
+register_greens("multilayer", multilayer_greens)

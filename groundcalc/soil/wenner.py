@@ -139,11 +139,28 @@ class SoilFit:
     thickness_m: float
     misfit_pct: float
     starts: int
+    layered: object | None = None  # groundcalc.soil.sounding.Sounding: fits of 1 .. N layers
 
     @property
     def soil(self) -> Soil:
         """The fitted two-layer soil model."""
         return Soil("two-layer", self.rho1_ohm_m, self.thickness_m, self.rho2_ohm_m)
+
+    @property
+    def chosen_soil(self) -> Soil:
+        """The model the information criterion prefers (the two-layer model without N-layer fits).
+
+        One layer gives the uniform fit and two the classical two-layer fit above, so that the
+        two-layer image series and its fit stay the path for two layers.
+        """
+        if self.layered is None:
+            return self.soil
+        n = self.layered.chosen.layers
+        if n == 1:
+            return Soil("uniform", self.uniform_ohm_m)
+        if n == 2:
+            return self.soil
+        return self.layered.soil
 
     def model_ohm_m(self, spacing_m: np.ndarray) -> np.ndarray:
         """Apparent resistivity of the fitted two-layer model. [ohm*m]"""
@@ -164,13 +181,19 @@ def _rms_pct(model: np.ndarray, meas: np.ndarray) -> float:
     return float(100.0 * np.sqrt(np.mean((model / meas - 1.0) ** 2)))
 
 
-def fit_soil(readings: WennerReadings) -> SoilFit:
+def fit_soil(readings: WennerReadings, max_layers: int | None = None, criterion: str = "BIC") -> SoilFit:
     """Fit uniform and two-layer soil models to Wenner readings.
 
     Parameters
     ----------
     readings : WennerReadings
         At least three distinct spacings.
+    max_layers : int, optional
+        Also fit 1 .. ``max_layers`` layers by the Stefanescu integral and
+        rank them by the information criterion
+        (:func:`groundcalc.soil.sounding.fit_layers`).
+    criterion : str
+        ``"BIC"`` or ``"AIC"`` for that ranking.
 
     Returns
     -------
@@ -217,4 +240,9 @@ def fit_soil(readings: WennerReadings) -> SoilFit:
             best = res
     r1, r2, h = (float(v) for v in np.exp(best.x))
     mis = _rms_pct(two_layer_wenner(a, r1, r2, h), meas)
-    return SoilFit(readings, uni, uni_mis, r1, r2, h, mis, len(starts))
+    layered = None
+    if max_layers is not None:
+        from .sounding import fit_layers
+
+        layered = fit_layers(readings, max_layers, criterion)
+    return SoilFit(readings, uni, uni_mis, r1, r2, h, mis, len(starts), layered)

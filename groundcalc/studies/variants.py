@@ -170,6 +170,12 @@ def apply_variant(base: Design, variant: Variant) -> Design:
         soil = Soil("two-layer", rho1, so.thickness_m, so.rho2_ohm_m) if so.thickness_m is not None else Soil(
             "uniform", rho1
         )
+    elif soil.model == "multilayer":
+        # overrides act on the top two layers; the deeper ones are kept
+        layers = list(soil.layers)
+        layers[0] = (rho1, so.thickness_m if so.thickness_m is not None else layers[0][1])
+        layers[1] = (so.rho2_ohm_m if so.rho2_ohm_m is not None else layers[1][0], layers[1][1])
+        soil = Soil("multilayer", layers[0][0], layers[0][1], layers[1][0], layers=tuple(layers))
     else:
         soil = Soil(
             "two-layer",
@@ -206,6 +212,8 @@ def apply_variant(base: Design, variant: Variant) -> Design:
 
 
 def _soil_key(soil: Soil) -> tuple:
+    if soil.model == "multilayer":
+        return ("multilayer", soil.layers)
     return (
         (soil.model, soil.rho1_ohm_m, soil.thickness_m, soil.rho2_ohm_m)
         if soil.model == "two-layer"
