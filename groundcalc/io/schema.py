@@ -10,7 +10,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["ALL_SHEETS", "Field", "KEY_SHEETS", "SheetSpec", "TABLE_SHEETS", "VARIANTS", "WENNER", "sheet_spec"]
+__all__ = [
+    "ALL_SHEETS",
+    "Field",
+    "KEY_SHEETS",
+    "SheetSpec",
+    "TABLE_SHEETS",
+    "UNCERTAINTY",
+    "VARIANTS",
+    "WENNER",
+    "sheet_spec",
+]
 
 
 @dataclass(frozen=True)
@@ -455,9 +465,37 @@ VARIANTS = SheetSpec(
     "reports the base case and every variant side by side; the geometry is solved once per soil model.",
 )
 
+UNCERTAINTY = SheetSpec(
+    "Uncertainty",
+    "table",
+    (
+        Field(
+            "Quantity",
+            "text",
+            True,
+            help="An uncertain input with its unit in brackets, e.g. 'Fault current [kA]': Fault current, Split "
+            "factor, Fault duration, X/R ratio, Surface layer resistivity, Surface layer thickness, and (unless "
+            "the soil is fitted to Wenner readings) Upper resistivity, Upper thickness, Lower resistivity.",
+        ),
+        Field("Low", "number", True, help="Low end of the range, in the unit of the quantity."),
+        Field("High", "number", True, help="High end of the range, in the unit of the quantity."),
+        Field(
+            "Distribution",
+            "choice",
+            False,
+            help="uniform: every value from Low to High equally likely. normal or lognormal: Low and High are "
+            "the 5th and 95th percentiles. Blank = uniform.",
+            typical="uniform",
+            choices=("uniform", "normal", "lognormal"),
+        ),
+    ),
+    "Optional ranges of uncertain inputs for 'groundcalc uncertainty', one quantity per row. The soil "
+    "model fitted to Wenner readings brings its own uncertainty from the fit.",
+)
+
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
-TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS)
-ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS)
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS, UNCERTAINTY)
+ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS, UNCERTAINTY)
 
 
 def sheet_spec(name: str) -> SheetSpec:
