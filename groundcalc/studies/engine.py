@@ -116,11 +116,14 @@ class Engine:
         or ``None`` for local runs.
     client : object, optional
         An already connected ``distributed.Client`` (used instead of ``scheduler``).
+    timeout_s : float
+        How long to wait for the scheduler to answer. [s]
     """
 
     jobs: int = 1
     scheduler: str | None = None
     client: Any = None
+    timeout_s: float = 20.0
 
     @property
     def distributed(self) -> bool:
@@ -204,7 +207,7 @@ class Engine:
             ) from None
         own = self.client is None
         try:
-            client = self.client or Client(self.scheduler, timeout="20s")
+            client = self.client or Client(self.scheduler, timeout=f"{self.timeout_s}s")
         except OSError as exc:
             raise InputError(
                 f"no Dask scheduler answers at '{self.scheduler}' ({exc})",
