@@ -33,3 +33,13 @@ def test_example_design_reads_and_passes():
     # the demo is meant to show a passing design; touch governs
     assert r.assessment.passed
     assert r.assessment.governing == "touch"
+
+
+def test_uncertainty_example_reads_its_ranges():
+    from groundcalc.io.uncertainty import read_uncertainty
+
+    p = ROOT / "examples" / "kestrel-brook-uncertainty.xlsx"
+    qs, notes = read_uncertainty(p, read_design(p))
+    assert [q.key for q in qs] == ["fault current", "split factor", "fault duration", "surface layer resistivity"]
+    assert qs[0].low == 7000.0 and qs[0].high == 9000.0  # kA converted to A
+    assert notes == ()  # every range contains the design's own value
