@@ -182,6 +182,8 @@ def test_fault_current_samples_cost_no_solve(monkeypatch):
     s = case.samples
     assert s["max_touch_v"] / s["grid_current_a"] == pytest.approx(det.max_touch_v / det.grid_current_a, rel=1e-12)
     assert np.all(s["rg_ohm"] == det.resistance_ohm)
+    frame = case.frame()
+    assert len(frame) == 32 and {"fault_current", "split_factor", "max_touch_v", "touch_limit_v"} <= set(frame)
     # the inputs are symmetric about the design values, so the P50 lies within its shown sampling error
     for b in case.bands[1:]:
         lo, hi = b.ci[50.0]

@@ -99,6 +99,14 @@ def _case_section(case: CaseBand, first: bool) -> list:
             f"%</b> ({e.count} of {e.samples} samples; {100 * CONFIDENCE:.0f} % Wilson interval "
             f"{100 * e.low:.1f} to {100 * e.high:.1f} %)."
         )
+    for crit in ("touch", "step"):
+        lim = case.samples[f"{crit}_limit_v"]
+        if np.ptp(lim) > 0:
+            p5, p95 = np.percentile(lim, [5, 95])
+            lines.append(
+                f"The tolerable {crit} voltage varies with the sampled inputs (P5 {p5:,.0f} V, P95 {p95:,.0f} V); "
+                "each sample is compared with its own limit, the table shows the deterministic one."
+            )
     items += [Spacer(1, 3)] + [Paragraph(t, BODY) for t in lines]
     items += [Spacer(1, 4), touch_cdf(case)]
     return [KeepTogether(items)]

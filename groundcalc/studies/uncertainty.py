@@ -222,6 +222,12 @@ class CaseBand:
     samples: dict[str, np.ndarray]
     deterministic: Results
 
+    def frame(self):
+        """The samples as a pandas DataFrame, one row per sample, units in the column names."""
+        import pandas as pd
+
+        return pd.DataFrame(self.samples)
+
     def band(self, quantity: str) -> Band:
         """The band of ``quantity`` (e.g. ``"max touch"``)."""
         return next(b for b in self.bands if b.quantity == quantity)
@@ -319,27 +325,27 @@ def _apply(case: Design, base: Design, soil_params: np.ndarray | None, fit_param
     if soil_params is not None:
         ratio = soil_params / fit_params
         soil = Soil("two-layer", soil.rho1_ohm_m * ratio[0], soil.thickness_m * ratio[2], soil.rho2_ohm_m * ratio[1])
-    soil_vals = {k: _scaled(base_value(case, k), base_value(base, k), v) for k, v in values.items()}
-    if any(k in soil_vals for k in SOIL_QUANTITIES):
+    vals = {k: _scaled(base_value(case, k), base_value(base, k), v) for k, v in values.items()}
+    if any(k in vals for k in SOIL_QUANTITIES):
         soil = Soil(
             soil.model,
-            soil_vals.get("upper resistivity", soil.rho1_ohm_m),
-            soil_vals.get("upper thickness", soil.thickness_m),
-            soil_vals.get("lower resistivity", soil.rho2_ohm_m),
+            vals.get("upper resistivity", soil.rho1_ohm_m),
+            vals.get("upper thickness", soil.thickness_m),
+            vals.get("lower resistivity", soil.rho2_ohm_m),
         )
     surface = case.surface_layer
     if surface is not None and ("surface layer resistivity" in values or "surface layer thickness" in values):
         surface = SurfaceLayer(
-            soil_vals.get("surface layer resistivity", surface.rho_ohm_m),
-            soil_vals.get("surface layer thickness", surface.thickness_m),
+            vals.get("surface layer resistivity", surface.rho_ohm_m),
+            vals.get("surface layer thickness", surface.thickness_m),
         )
     f = case.fault
-    tf = soil_vals.get("fault duration", f.fault_duration_s)
+    tf = vals.get("fault duration", f.fault_duration_s)
     fault = replace(
         f,
-        fault_current_a=soil_vals.get("fault current", f.fault_current_a),
-        split_factor=min(1.0, soil_vals.get("split factor", f.split_factor)),
-        x_over_r=soil_vals.get("x/r ratio", f.x_over_r),
+        fault_current_a=vals.get("fault current", f.fault_current_a),
+        split_factor=min(1.0, vals.get("split factor", f.split_factor)),
+        x_over_r=vals.get("x/r ratio", f.x_over_r),
         fault_duration_s=tf,
         shock_duration_s=tf if f.shock_duration_s == f.fault_duration_s else f.shock_duration_s,
     )
