@@ -281,6 +281,12 @@ def test_cli_band_json(noisy_run):
         lo, hi = b["confidence_intervals"]["p50"]
         # the Monte Carlo P50 agrees with the deterministic run within the shown sampling error
         assert lo <= b["deterministic"] <= hi, b
+    # each sample's own tolerable touch voltage: IEEE Std 80-2000 Eqs. 27 and 32 with its sampled rho1
+    # (Cs depends on the soil under the crushed rock), 70 kg (k = 0.157), ts = 0.5 s
+    rho1 = np.array(case["samples"]["rho1_ohm_m"])
+    cs = 1 - 0.09 * (1 - rho1 / 2500) / (2 * 0.102 + 0.09)
+    assert case["samples"]["touch_limit_v"] == pytest.approx((1000 + 1.5 * cs * 2500) * 0.157 / np.sqrt(0.5))
+    assert case["deterministic"]["tolerable_touch_v"] > 0
     ex = {e["criterion"]: e for e in case["exceedance"]}
     lim = case["samples"]["touch_limit_v"]
     assert ex["touch"]["samples_exceeding"] == sum(t > m for t, m in zip(touch, lim, strict=True))

@@ -234,8 +234,15 @@ class CaseBand:
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready dictionary (samples as columns)."""
+        det = self.deterministic
         return {
             "name": self.name,
+            "deterministic": {
+                "tolerable_touch_v": det.limits.touch_v,
+                "tolerable_step_v": det.limits.step_v,
+                "passed": det.assessment.passed,
+                "governing": det.assessment.governing,
+            },
             "bands": [b.to_dict() for b in self.bands],
             "exceedance": [e.to_dict() for e in self.exceedance],
             "samples": {k: [float(v) for v in col] for k, col in self.samples.items()},
@@ -446,7 +453,7 @@ def run_uncertainty(
             )
     if cov is None and not quantities:
         raise InputError(
-            "nothing is uncertain: the soil is not fitted to Wenner readings and there is no 'Uncertainty' sheet",
+            "nothing is uncertain: the soil is not fitted to Wenner readings and no 'Uncertainty' sheet has rows",
             sheet="Uncertainty",
             fix="Add an 'Uncertainty' sheet with rows 'Quantity | Low | High | Distribution' (e.g. 'Fault current "
             "[kA] | 9 | 11 | uniform'), or set Soil Model = fitted with Wenner readings",
@@ -497,7 +504,8 @@ def run_uncertainty(
                 todo[key] = sd
         sample_designs.append(row)
     t1 = time.perf_counter()
-    log.info("uncertainty: %d samples x %d case(s), %s", samples, len(cases), engine.describe(len(todo)))
+    where = engine.describe(len(todo)) if todo else "no solve beyond the deterministic case(s)"
+    log.info("uncertainty: %d samples x %d case(s), %s", samples, len(cases), where)
     solved = engine.map(solve_per_volt, list(todo.values()), "soil samples")
     cache.update(zip(todo.keys(), solved, strict=True))
     t_solve = time.perf_counter() - t1
@@ -546,7 +554,6 @@ def run_uncertainty(
         "Latin hypercube samples of " + " and of ".join(sources) + "; one method-of-moments solve per distinct soil "
         "model, the fault and surface-layer data applied per volt of GPR (the model is linear in the current)."
     )
-    where = engine.describe(len(todo)) if todo else "no solve beyond the deterministic case(s)"
     return UncertaintyRun(
         out,
         samples,
