@@ -432,6 +432,7 @@ def _cmd_uncertainty(args: argparse.Namespace) -> int:
     from .io.outputs import atomic_write, file_sha256, write_json
     from .io.uncertainty import read_uncertainty
     from .io.workbook import read_design
+    from .studies.compare import default_jobs
     from .studies.uncertainty import run_uncertainty, table_lines
 
     inputs = [args.workbook]
@@ -439,7 +440,7 @@ def _cmd_uncertainty(args: argparse.Namespace) -> int:
     sha = file_sha256(args.workbook) if Path(args.workbook).is_file() else ""
     design = read_design(args.workbook)
     quantities, notes = read_uncertainty(args.workbook, design)
-    run = run_uncertainty(design, quantities, args.samples, args.seed, _engine(args, 1))
+    run = run_uncertainty(design, quantities, args.samples, args.seed, _engine(args, default_jobs()))
     for n in notes + run.notices:
         log.warning("%s: %s", n.level, n.message)
     print(

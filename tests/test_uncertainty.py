@@ -260,7 +260,8 @@ def noisy_run(tmp_path_factory):
                   wenner=list(zip(SPACINGS, rho, strict=True)), grid=LOOP)  # fmt: skip
     sha = hashlib.sha256(p.read_bytes()).hexdigest()
     out, pdf = tmp / "band.json", tmp / "band.pdf"
-    code = main(["uncertainty", str(p), "--samples", "4", "--seed", "9", "--json", str(out), "--report", str(pdf)])
+    args = ["--samples", "4", "--seed", "9", "--jobs", "1", "--json", str(out), "--report", str(pdf)]
+    code = main(["uncertainty", str(p), *args])
     return p, sha, code, json.loads(out.read_text()), pdf
 
 
