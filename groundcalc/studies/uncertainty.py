@@ -443,6 +443,15 @@ def run_uncertainty(
                 sheet=WENNER.name,
                 fix="Add readings at more spacings; 6 to 12 spacings are usual",
             ) from None
+        if cov.dof < 3:
+            notices.append(
+                Notice(
+                    "few-readings",
+                    f"Only {len(fit.readings.spacing_m)} Wenner readings for three soil parameters: the noise is "
+                    f"estimated from {cov.dof} degree(s) of freedom, so the soil samples have very heavy tails and "
+                    "the band is wide. 6 to 12 spacings are usual.",
+                )
+            )
         if cov.at_bound:
             notices.append(
                 Notice(
