@@ -7,6 +7,8 @@ The scenario is invented for demonstration: "Kestrel Brook" is a made-up
 - kestrel-brook-closer.xlsx: the same site with a closer-meshed switchyard grid (for compare).
 - kestrel-brook-variants.xlsx: the base design with a Variants sheet (dry season, future
   fault level, thinner crushed rock).
+- kestrel-brook-uncertainty.xlsx: the base design with an Uncertainty sheet (ranges of the
+  fault current, split factor, clearing time and crushed-rock resistivity).
 
 Run from the repository root:  python examples/make_example.py
 """
@@ -31,8 +33,8 @@ def fill_keyvalue(ws, values: dict[str, object]) -> None:
         raise KeyError(f"not in template: {sorted(values)}")
 
 
-def build(path: Path = OUT, yard=(9, 11), variants=()) -> Path:
-    """Build the demo workbook at ``path`` (switchyard conductor counts, variant rows)."""
+def build(path: Path = OUT, yard=(9, 11), variants=(), uncertainty=()) -> Path:
+    """Build the demo workbook at ``path`` (switchyard conductor counts, variant rows, uncertainty rows)."""
     wb = build_template()
     fill_keyvalue(
         wb["Project"],
@@ -90,6 +92,8 @@ def build(path: Path = OUT, yard=(9, 11), variants=()) -> Path:
         ws.cell(row=row, column=cols["Variant"], value=name)
         for header, v in changes.items():
             ws.cell(row=row, column=cols[header], value=v)
+    for row in uncertainty:
+        wb["Uncertainty"].append(list(row))
     wb.save(path)
     return path
 
@@ -100,8 +104,16 @@ VARIANTS = (
     ("thin crushed rock", {"Surface layer thickness [m]": 0.08}),
 )
 
+UNCERTAINTY = (
+    ("Fault current [kA]", 7.0, 9.0, "uniform"),
+    ("Split factor", 0.35, 0.55, "normal"),
+    ("Fault duration [s]", 0.4, 0.6, "uniform"),
+    ("Surface layer resistivity [ohm*m]", 2000, 4500, "lognormal"),
+)
+
 
 if __name__ == "__main__":
     print(build())
     print(build(HERE / "kestrel-brook-closer.xlsx", yard=(11, 13)))
     print(build(HERE / "kestrel-brook-variants.xlsx", variants=VARIANTS))
+    print(build(HERE / "kestrel-brook-uncertainty.xlsx", uncertainty=UNCERTAINTY))

@@ -1,4 +1,4 @@
-"""Command line: ``groundcalc template``, ``run``, ``import``, ``soil``, ``compare`` and ``sweep``.
+"""Command line: ``groundcalc template``, ``run``, ``import``, ``soil``, ``compare``, ``sweep`` and ``uncertainty``.
 
 Exit codes: 0 finished (the design may still fail the safety criteria; the
 output says so), 2 bad input or arguments, 1 internal error.
@@ -407,13 +407,18 @@ def _write_side_by_side(outputs, summaries, ranks, title, intro, first, extra_js
 
 
 def _cmd_compare(args: argparse.Namespace) -> int:
-    from .studies.compare import default_jobs, rank, run_parallel, summarise_file, table_lines
+    from .studies.compare import default_jobs, rank, summarise_file, table_lines
 
     inputs = list(args.workbooks)
     outputs = _output_paths(args, inputs)
-    jobs = args.jobs or default_jobs()
-    log.info("analysing %d designs in %d worker process(es)", len(inputs), min(jobs, len(inputs)))
-    summaries = run_parallel(summarise_file, [str(p) for p in inputs], jobs)
+    engine = _engine(args, default_jobs())
+    log.info("analysing %s", engine.describe(len(inputs)))
+    if engine.distributed:
+        from .studies.engine import summarise_bytes, workbook_item
+
+        summaries = engine.map(summarise_bytes, [workbook_item(p) for p in inputs], "designs")
+    else:
+        summaries = engine.map(summarise_file, [str(p) for p in inputs], "designs")
     ranks = rank(summaries)
     print("\n".join(table_lines(summaries, ranks)))
     passing = [s for s, r in sorted(zip(summaries, ranks, strict=True), key=lambda t: t[1] or 10**9) if r]
@@ -467,9 +472,9 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
             sheet="Grids",
             fix="Describe the grid to vary as one Grids row; fixed extra conductors may stay on the Conductors sheet",
         )
-    jobs = args.jobs or default_jobs()
-    log.info("sweep in %d worker process(es)", jobs)
-    layouts, summaries = run_sweep(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0, jobs)
+    engine = _engine(args, default_jobs())
+    log.info("sweep: %s", engine.describe(len(spacings) * len(counts)))
+    layouts, summaries = run_sweep(design, spacings, counts, args.rod_length, args.rod_diameter / 1000.0, engine)
     ranks = rank(summaries)
     print("\n".join(table_lines(summaries, ranks, first="Layout")))
     best = min((k for k, r in enumerate(ranks) if r), key=lambda k: ranks[k], default=None)
@@ -504,6 +509,85 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     return 0
 
 
+def _engine(args, default: int):
+    """Where the runs of a study execute (``--jobs``, ``--scheduler``)."""
+    from .studies.engine import Engine
+
+    return Engine(jobs=args.jobs or default, scheduler=getattr(args, "scheduler", None))
+
+
+def _cmd_uncertainty(args: argparse.Namespace) -> int:
+    from .cautions import CAUTIONS, DRAFT_MARK
+    from .io.outputs import atomic_write, file_sha256, write_json
+    from .io.uncertainty import read_uncertainty
+    from .io.workbook import read_design
+    from .studies.compare import default_jobs
+    from .studies.uncertainty import run_uncertainty, table_lines
+
+    inputs = [args.workbook]
+    report, json_out = _output_paths(args, inputs)
+    sha = file_sha256(args.workbook) if Path(args.workbook).is_file() else ""
+    design = read_design(args.workbook)
+    quantities, notes = read_uncertainty(args.workbook, design)
+    run = run_uncertainty(design, quantities, args.samples, args.seed, _engine(args, default_jobs()))
+    for n in notes + run.notices:
+        log.warning("%s: %s", n.level, n.message)
+    print(
+        f"Uncertainty band: {run.samples} Latin hypercube samples, seed {run.seed}; "
+        f"{run.solves} geometry solve(s) ({run.deterministic_solves} deterministic), {run.seconds:.1f} s"
+    )
+    if run.soil is not None:
+        lo, hi = run.soil.interval(0.90)
+        print(
+            f"Soil from the Wenner fit: residual s = {100 * run.soil.residual_sd:.2g} % over {run.soil.dof} degrees "
+            f"of freedom; 90 % intervals rho1 {lo[0]:.4g}-{hi[0]:.4g} ohm*m, rho2 {lo[1]:.4g}-{hi[1]:.4g} ohm*m, "
+            f"H {lo[2]:.3g}-{hi[2]:.3g} m"
+        )
+    for q in run.quantities:
+        print(f"Range: {q.describe()}")
+    print()
+    print("\n".join(table_lines(run)))
+    if json_out:
+        data = {
+            "groundcalc_version": __version__,
+            "status": DRAFT_MARK,
+            "input_file": str(args.workbook),
+            "input_sha256": sha,
+            **run.to_dict(),
+            "cautions": [f"{h}: {t}" for h, t in CAUTIONS],
+        }
+        data["notices"] = [{"level": n.level, "message": n.message} for n in notes] + data["notices"]
+        write_json(json_out, data)
+        log.info("wrote %s", json_out)
+    if report:
+        from .report.uncertainty import write_uncertainty_report
+
+        atomic_write(report, lambda tmp: write_uncertainty_report(run, tmp, Path(args.workbook).name, sha, notes))
+        log.info("wrote %s", report)
+    _print_cautions()
+    return 0
+
+
+def _samples(value: str) -> int:
+    try:
+        n = int(value)
+    except ValueError:
+        n = 0
+    if n < 4:
+        raise argparse.ArgumentTypeError(f"--samples must be a whole number of 4 or more, got '{value}'")
+    return n
+
+
+def _seed(value: str) -> int:
+    try:
+        n = int(value)
+    except ValueError:
+        n = -1
+    if n < 0:
+        raise argparse.ArgumentTypeError(f"--seed must be a whole number of 0 or more, got '{value}'")
+    return n
+
+
 def _add_common(p: argparse.ArgumentParser, report: str | None, json_help: str, jobs: bool = False) -> None:
     """Options shared by the analysis commands."""
     if report:
@@ -511,6 +595,12 @@ def _add_common(p: argparse.ArgumentParser, report: str | None, json_help: str, 
     p.add_argument("--json", metavar="JSON", help=json_help)
     if jobs:
         p.add_argument("--jobs", type=_jobs, default=0, metavar="N", help="worker processes (default: one per core)")
+        p.add_argument(
+            "--scheduler",
+            metavar="ADDRESS",
+            help="run on the Dask cluster whose scheduler is at ADDRESS, e.g. tcp://10.0.0.5:8786 "
+            "(needs groundcalc[cluster])",
+        )
     p.add_argument("--overwrite", action="store_true", help="replace existing output files")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
 
@@ -591,6 +681,13 @@ def _parser() -> argparse.ArgumentParser:
     w.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the chosen layout")
     _add_common(w, "write the sweep table to this PDF", "write the sweep table to this file", jobs=True)
     w.set_defaults(func=_cmd_sweep)
+
+    u = sub.add_parser("uncertainty", help="band of Rg, GPR, touch and step over uncertain soil and fault data")
+    u.add_argument("workbook", help="design workbook (.xlsx): soil fitted to Wenner readings, or an Uncertainty sheet")
+    u.add_argument("--samples", type=_samples, default=64, metavar="N", help="Latin hypercube samples (default 64)")
+    u.add_argument("--seed", type=_seed, default=20, metavar="S", help="seed of the sampling (default 20)")
+    _add_common(u, "write the draft band report to this PDF", "write the band and every sample to this file", True)
+    u.set_defaults(func=_cmd_uncertainty)
     return p
 
 

@@ -78,3 +78,13 @@ def test_api_example_runs_and_its_numbers_check_out(capsys):
     sverak = 150.0 * (1 / lt + 1 / math.sqrt(20 * area) * (1 + 1 / (1 + h * math.sqrt(20 / area))))
     assert res.sverak_resistance_ohm == pytest.approx(sverak, rel=1e-9)
     assert res.gpr_v == pytest.approx(res.grid_current_a * res.resistance_ohm, rel=1e-12)
+
+
+def test_uncertainty_example_reads_its_ranges():
+    from groundcalc.io.uncertainty import read_uncertainty
+
+    p = ROOT / "examples" / "kestrel-brook-uncertainty.xlsx"
+    qs, notes = read_uncertainty(p, read_design(p))
+    assert [q.key for q in qs] == ["fault current", "split factor", "fault duration", "surface layer resistivity"]
+    assert qs[0].low == 7000.0 and qs[0].high == 9000.0  # kA converted to A
+    assert notes == ()  # every range contains the design's own value

@@ -549,12 +549,21 @@ def write_design_with_layout(source: str | Path, target: str | Path, grid, added
     atomic_write(target, lambda tmp: wb.save(tmp))
 
 
+def _json_scalar(value: Any) -> Any:
+    """NumPy scalars (float64, bool_, int64) as their Python values; anything else is an error."""
+    import numpy as np
+
+    if isinstance(value, np.generic):
+        return value.item()
+    raise TypeError(f"Object of type {type(value).__name__} is not JSON serializable")
+
+
 def write_json(path: str | Path, data: dict[str, Any]) -> None:
     """Write ``data`` as indented JSON, atomically."""
 
     def writer(tmp: Path) -> None:
         with open(tmp, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2, allow_nan=False)
+            json.dump(data, fh, indent=2, allow_nan=False, default=_json_scalar)
             fh.write("\n")
 
     atomic_write(path, writer)

@@ -18,6 +18,7 @@ __all__ = [
     "LAYERS",
     "SheetSpec",
     "TABLE_SHEETS",
+    "UNCERTAINTY",
     "VARIANTS",
     "WENNER",
     "sheet_spec",
@@ -633,11 +634,41 @@ LAYERS = SheetSpec(
     "Two to eight layers; the last row's thickness is blank.",
 )
 
+UNCERTAINTY = SheetSpec(
+    "Uncertainty",
+    "table",
+    (
+        Field(
+            "Quantity",
+            "text",
+            True,
+            help="An uncertain input with its unit in brackets, e.g. 'Fault current [kA]': Fault current, Split "
+            "factor, Fault duration, X/R ratio, Surface layer resistivity, Surface layer thickness, and (unless "
+            "the soil is fitted to Wenner readings) Upper resistivity, Upper thickness, Lower resistivity.",
+        ),
+        Field("Low", "number", True, help="Low end of the range, in the unit of the quantity."),
+        Field("High", "number", True, help="High end of the range, in the unit of the quantity."),
+        Field(
+            "Distribution",
+            "choice",
+            False,
+            help="uniform: every value from Low to High equally likely. normal or lognormal: Low and High are "
+            "the 5th and 95th percentiles. Blank = uniform.",
+            typical="uniform",
+            choices=("uniform", "normal", "lognormal"),
+        ),
+    ),
+    "Optional ranges of uncertain inputs for 'groundcalc uncertainty', one quantity per row. The soil "
+    "model fitted to Wenner readings brings its own uncertainty from the fit.",
+)
+
 METAL_SHEETS = (METAL, FENCES, CHECK_POINTS, CHECK_AREAS, PROFILES)
 
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
-TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS, LAYERS) + METAL_SHEETS
-ALL_SHEETS = (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS, LAYERS) + METAL_SHEETS
+TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS, LAYERS, UNCERTAINTY) + METAL_SHEETS
+ALL_SHEETS = (
+    (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS, LAYERS, UNCERTAINTY) + METAL_SHEETS
+)
 
 
 def sheet_spec(name: str) -> SheetSpec:

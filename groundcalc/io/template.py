@@ -84,6 +84,13 @@ def _table_sheet(wb, spec: SheetSpec) -> None:
         text = ("Required. " if f.required else "") + f.help + (f" Typical: {f.typical}." if f.typical else "")
         ws.cell(row=1, column=col).comment = Comment(text, "groundcalc")
         ws.column_dimensions[get_column_letter(col)].width = max(12, len(f.header()) + 4)
+        if f.kind == "choice":
+            letter = get_column_letter(col)
+            dv = DataValidation(type="list", formula1='"' + ",".join(f.choices) + '"', allow_blank=True)
+            dv.add(f"{letter}2:{letter}200")
+            ws.add_data_validation(dv)
+    if spec.name == "Uncertainty":
+        ws.column_dimensions["A"].width = 36
     _style_header(ws, len(spec.fields))
 
 

@@ -705,7 +705,9 @@ def multilayer_greens(soil: Soil, ranges: DepthRanges, tol: float = 1e-9) -> Mul
         tl = [(rem, t.so * zo + t.ss * zs + t.c, g) for t, rem, g in info]
         if not imgs and not tl:
             return None
-        return RadialTable(prof, imgs, tl, lo_d, hi_d, scale)
+        # a small grid can have its far-rule distance beyond its extent: keep the range non-empty
+        # (points beyond a table are summed directly)
+        return RadialTable(prof, imgs, tl, lo_d, max(hi_d, 2.0 * lo_d, lo_d + 1.0), scale)
 
     if n_groups <= MAX_DEPTH_GROUPS:
         for lo, ls in pairs:

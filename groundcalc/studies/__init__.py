@@ -1,1 +1,1 @@
-"""Many runs of the pipeline: compare designs, variants of one design, layout sweeps."""
+"""Many runs of the pipeline: compare designs, variants of one design, layout sweeps, uncertainty bands."""

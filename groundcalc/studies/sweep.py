@@ -174,9 +174,12 @@ def run_sweep(
     rod_counts: list[int],
     rod_length_m: float,
     rod_diameter_m: float,
-    jobs: int,
+    jobs,
 ) -> tuple[list[SweepLayout], list]:
     """Build and analyse every layout of the sweep (soil already resolved).
+
+    ``jobs`` is a number of local worker processes, or a
+    :class:`groundcalc.studies.engine.Engine` (local pool or Dask cluster).
 
     Returns
     -------
@@ -188,7 +191,11 @@ def run_sweep(
     from .compare import run_parallel, summarise_design
 
     layouts = sweep_layouts(design, spacings_m, rod_counts, rod_length_m, rod_diameter_m)
-    summaries = run_parallel(summarise_design, [(lay.name, lay.design) for lay in layouts], jobs)
+    items = [(lay.name, lay.design) for lay in layouts]
+    if hasattr(jobs, "map"):
+        summaries = jobs.map(summarise_design, items, "layouts")
+    else:
+        summaries = run_parallel(summarise_design, items, jobs)
     for lay, s in zip(layouts, summaries, strict=True):
         s.extra = {
             "spacing_target_m": lay.spacing_target_m,
