@@ -76,7 +76,8 @@ def read_layer_rules(path: str | Path) -> list[LayerRule]:
     InputError
         When the workbook has no Drawing sheet or a row is invalid.
     """
-    from .workbook import _find_sheet, open_workbook, read_table, value
+    from .cells import open_workbook, read_table, value
+    from .sheetcheck import find_sheet as _find_sheet
 
     wb = open_workbook(path)
     try:

@@ -25,8 +25,8 @@ from ..geometry.metal import (
     fence_conductors,
 )
 from ..model import Conductor, Notice, Rod
+from .cells import read_keyvalue, read_table, value
 from .schema import CHECK_AREAS, CHECK_POINTS, CONDUCTORS, FENCES, METAL, PROFILES, RODS, SETTINGS, SheetSpec
-from .workbook import read_keyvalue, read_table, value
 
 __all__ = ["MAX_FENCE_REACH_M", "metal_to_dict", "read_metal"]
 

@@ -176,10 +176,17 @@ def _check_keyvalue_headers(ws, spec: SheetSpec, notices: list[Notice]) -> None:
         )
 
 
+def find_sheet(wb, name: str):
+    """The sheet of ``wb`` whose name normalises to ``name`` (capitals and spaces ignored), or None."""
+    for actual in wb.sheetnames:
+        if normalise_name(actual) == normalise_name(name):
+            return wb[actual]
+    return None
+
+
 def check_layout(wb, notices: list[Notice]) -> None:
     """Refuse ambiguous sheet and column names; warn about ignored ones (see the module docstring)."""
-    from .workbook import _find_sheet
-
+    _find_sheet = find_sheet
     _check_sheet_names(wb, notices)
     for spec in ALL_SHEETS:
         ws = _find_sheet(wb, spec.name)

@@ -17,9 +17,9 @@ import scipy.stats
 
 from ..errors import InputError
 from ..model import Design, Notice
+from .cells import Cell, _factor, check_formulas, open_workbook, read_table, value
 from .schema import FAULT, SOIL, UNCERTAINTY, Field
 from .units import DEFAULT_UNIT, split_header
-from .workbook import Cell, _factor, check_formulas, open_workbook, read_table, value
 
 __all__ = ["QUANTITIES", "SOIL_QUANTITIES", "UncertainQuantity", "base_value", "read_uncertainty"]
 
