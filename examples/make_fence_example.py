@@ -76,7 +76,7 @@ def build(path: Path = BONDED, bonded: bool = True) -> Path:
             "Gate swing [m]": 4.0,
         },
     )
-    # grading conductor 1 m outside the fence, joined to the grid by four straight jumpers
+    # grading conductor 1 m outside the fence at the grid's depth, joined to the grid by four straight jumpers
     ring = [(-2.5, -2.5), (74.5, -2.5), (74.5, 42.5), (-2.5, 42.5), (-2.5, -2.5)]
     jumpers = [((30, 0), (30, -2.5)), ((30, 40), (30, 42.5)), ((0, 20), (-2.5, 20)), ((72, 17.5), (74.5, 17.5))]
     edges = [(f"Grading-{k + 1}", ring[k], ring[k + 1]) for k in range(4)]
@@ -88,10 +88,10 @@ def build(path: Path = BONDED, bonded: bool = True) -> Path:
                 "Label": label,
                 "X1 [m]": a[0],
                 "Y1 [m]": a[1],
-                "Depth1 [m]": 0.5,
+                "Depth1 [m]": 0.6,
                 "X2 [m]": b[0],
                 "Y2 [m]": b[1],
-                "Depth2 [m]": 0.5,
+                "Depth2 [m]": 0.6,
                 "Diameter [mm]": 12,
             },
         )

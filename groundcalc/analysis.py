@@ -22,7 +22,6 @@ from .mom.convergence import (
     COARSE_MIN_SAVING,
     WARN_RELATIVE,
     DiscretisationError,
-    coarse_solution,
     richardson_error,
 )
 from .mom.solver import GeometryResult, solve
@@ -282,20 +281,25 @@ def with_discretisation(results: Results) -> Results:
 def discretisation_estimate(design: Design, geometry: GeometryResult, field_result: FieldResult) -> DiscretisationError:
     """Two-level (Richardson) estimate of the discretisation error of Rg and of the largest touch voltage.
 
-    The geometry is solved again with twice the segment length
-    (:func:`groundcalc.mom.convergence.coarse_solution`), or with half of it
-    when doubling hardly coarsens the mesh; the touch voltage of that solution
-    is evaluated at the location of the main result's maximum.
+    The geometry is solved again, by the same path as the main solve (every
+    soil interface, every metal group), with twice the segment length, or with
+    half of it when doubling hardly coarsens the mesh; the touch voltage of that
+    solution is evaluated at the location of the main result's maximum.
     """
     sol = geometry.solution
     h = design.settings.segment_length_m
-    conductors = geometry.segmentation.conductors
+
+    def level(ratio: float):
+        t = time.perf_counter()
+        other = solve_geometry(replace(design, settings=replace(design.settings, segment_length_m=ratio * h)))
+        return other.solution, other.solution.segments, time.perf_counter() - t
+
     ratio = 2.0
-    coarse, seg, seconds = coarse_solution(conductors, design.soil, h, design.settings.margin_m, ratio)
+    coarse, seg, seconds = level(ratio)
     if len(seg) > COARSE_MIN_SAVING * len(sol.segments):
         # doubling hardly coarsens this mesh: check against a finer level instead
         ratio = 0.5
-        coarse, seg, more = coarse_solution(conductors, design.soil, h, design.settings.margin_m, ratio)
+        coarse, seg, more = level(ratio)
         seconds += more
     t0 = time.perf_counter()
     r_rel = richardson_error(sol.resistance_ohm, coarse.resistance_ohm, ratio)
@@ -306,7 +310,9 @@ def discretisation_estimate(design: Design, geometry: GeometryResult, field_resu
         coarse_touch = (1.0 - float(surface_potential(xy, coarse, 1.0)[0])) * coarse.resistance_ohm
         touch_rel = richardson_error(touch_pu * sol.resistance_ohm, coarse_touch, ratio)
     seconds += time.perf_counter() - t0
-    log.info("discretisation error estimate: Rg %.2g, touch %s", r_rel, touch_rel)
+    log.info(
+        "discretisation error estimate: Rg %.2g, touch %s", r_rel, "n/a" if touch_rel is None else f"{touch_rel:.2g}"
+    )
     return DiscretisationError(
         r_rel,
         touch_rel,

@@ -97,3 +97,22 @@ def test_summary_and_json_carry_the_estimate():
     off = analyse(design, error_estimate=False)
     assert results_to_dict(off)["discretisation_error"] is None
     assert not any(line.startswith("Discretisation error") for line in _summary_lines(off))
+
+
+def test_estimate_solves_the_coarse_level_with_the_same_metal_groups():
+    # A floating pipe beside the grid: the check level must keep it floating (zero net current,
+    # Kirchhoff), or it would add a second electrode at the GPR and the "error" would be the
+    # difference between two different problems (tens of per cent), not the discretisation.
+    from dataclasses import replace
+
+    from groundcalc.model import Conductor, MetalGroup, MetalLayout
+
+    pipe = Conductor("pipe", (-6.0, 10.0, 1.0), (26.0, 10.0, 1.0), 0.1)
+    base = make_design(grids=GRID, soil=Soil("uniform", 100.0), segment=2.0, spacing=2.0, margin=1.0)
+    design = replace(base, metal=MetalLayout(groups=(MetalGroup("pipe", False, (pipe,)),)))
+    r = analyse(design)
+    assert r.discretisation.coarse_segment_length_m == 4.0
+    assert r.discretisation.resistance_rel < 0.01
+    bonded = analyse(replace(base, conductors=(pipe,)))
+    # the bonded pipe lowers Rg clearly: the two problems differ by far more than the estimate
+    assert abs(bonded.resistance_ohm / r.resistance_ohm - 1) > 5 * r.discretisation.resistance_rel

@@ -37,22 +37,15 @@ with a safety factor on the two-level estimate).
 
 from __future__ import annotations
 
-import time
 from dataclasses import dataclass
 
 import numpy as np
-
-from ..geometry.segments import Segments, move_off_interface, segment_conductors
-from ..model import Conductor, Soil
-from .assembly import build_greens
-from .solver import Solution, solve
 
 __all__ = [
     "ASSUMED_ORDER",
     "COARSE_MIN_SAVING",
     "WARN_RELATIVE",
     "DiscretisationError",
-    "coarse_solution",
     "richardson_error",
 ]
 
@@ -136,41 +129,3 @@ class DiscretisationError:
     def exceeds_warning(self) -> bool:
         """True when either estimate exceeds ``WARN_RELATIVE``."""
         return bool(self.largest_rel > WARN_RELATIVE)
-
-
-def coarse_solution(
-    conductors: tuple[Conductor, ...] | list[Conductor],
-    soil: Soil,
-    segment_length_m: float,
-    margin_m: float = 0.0,
-    ratio: float = 2.0,
-) -> tuple[Solution, Segments, float]:
-    """Solve the same conductors with ``ratio`` times the target segment length.
-
-    Parameters
-    ----------
-    conductors : sequence of Conductor
-        All conductors and rods, as given to the main solve.
-    soil : Soil
-        Soil model (uniform or two-layer).
-    segment_length_m : float
-        Target segment length of the main solve. [m]
-    margin_m : float
-        Surface margin (for the two-layer tables). [m]
-    ratio : float
-        Coarsening ratio.
-
-    Returns
-    -------
-    (solution, segments, seconds)
-        The coarse solution, its segments and the time taken. [s]
-    """
-    t0 = time.perf_counter()
-    interface = soil.thickness_m if soil.model == "two-layer" else None
-    conductors = tuple(conductors)
-    if interface is not None:
-        conductors, _ = move_off_interface(conductors, interface)
-    seg = segment_conductors(conductors, ratio * segment_length_m, interface_depth_m=interface).segments
-    greens = build_greens(soil, seg, margin_m)
-    sol = solve(seg, greens)
-    return sol, seg, time.perf_counter() - t0

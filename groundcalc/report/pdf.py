@@ -83,7 +83,7 @@ def summary(results: Results) -> list:
     rows = [
         ["Criterion", "Computed", "Tolerable", "Margin [%]", "Result"],
         [
-            "Touch voltage [V]",
+            Paragraph("Touch voltage [V]" + (", grid footprint" if getattr(a, "checks", ()) else ""), BODY),
             fmt(results.max_touch_v),
             fmt(lim.touch_limit_v),
             f"{a.touch_margin_pct:+.1f}",
@@ -107,6 +107,19 @@ def summary(results: Results) -> list:
                 f"at least {sz.required_mm2:.1f}",
                 f"{100.0 * (smallest - sz.required_mm2) / smallest:+.1f}",
                 Paragraph(verdict(sz.ok), BODY),
+            ]
+        )
+    checks = getattr(a, "checks", ())
+    if checks:
+        worst = min(checks, key=lambda c: (c.limit_v - c.value_v) / c.limit_v)
+        failing = sum(not c.ok for c in checks)
+        rows.append(
+            [
+                Paragraph(f"Fences, gates, points, areas: {failing} of {len(checks)} fail; worst", BODY),
+                fmt(worst.value_v),
+                fmt(worst.limit_v),
+                f"{100.0 * (worst.limit_v - worst.value_v) / worst.limit_v:+.1f}",
+                Paragraph(verdict(failing == 0), BODY),
             ]
         )
     basis = f"Tolerable voltages: {lim.basis}, Cs = {lim.cs:.4f}."
@@ -356,9 +369,18 @@ def assumptions(results: Results) -> list:
         f"Surface potential on a {results.field.raster.spacing_m:.3g} m raster over the grid and a "
         f"{d.settings.margin_m:g} m margin; the worst points are refined by a local search, but a peak narrower "
         "than the raster can be missed.",
-        f"Touch voltage is assessed over the {results.field.raster.touch_area.description}; metal outside it "
-        "(fences, gates) needs its own check. Step voltage is assessed over the raster.",
-        "Power frequency only; no transferred potentials, no other buried metal.",
+        f"Touch voltage of grid metal is assessed over the {results.field.raster.touch_area.description}"
+        + (
+            "; fences, gates, check points and check areas entered in the workbook are checked as listed in "
+            "their section. Metal left off the workbook is not checked."
+            if results.metal is not None
+            else "; no fences, gates, check points or other metal were entered, so metal outside it (a fence, "
+            "a gate, equipment beyond the grid edge) is not checked: enter it on the Fences, Metal or Check "
+            "points sheets."
+        )
+        + " Step voltage is assessed over the raster.",
+        "Power frequency only; no transferred potentials through cable sheaths, neutrals or beyond the modelled "
+        "metal; other buried metal only as entered.",
         "The IEEE Std 80 closed forms are a sanity check only: they assume uniform soil and regular grids.",
     ]
     return [KeepTogether([Paragraph("Assumptions and limitations", H2)] + [Paragraph(f"- {t}", BODY) for t in items])]
