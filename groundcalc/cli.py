@@ -624,7 +624,10 @@ def _parser() -> argparse.ArgumentParser:
     _add_common(r, "write the draft report to this PDF", "write machine-readable results to this file")
     r.add_argument("--dxf", metavar="DXF", help="write conductors, rods and touch-voltage contours to this drawing")
     r.add_argument(
-        "--contours", metavar="V,V,...", help="touch-voltage contour levels [V] (default: 25 %% to 200 %% of the limit)"
+        "--contours",
+        metavar="V,V,...",
+        help="touch-voltage contour levels [V] (default: 25 %% to 200 %% of the limit, plus levels across the "
+        "touch range when none of those cut it)",
     )
     r.add_argument("--dxf-units", default="m", choices=("m", "mm", "cm", "ft", "in"), help="unit of the DXF (m)")
     r.add_argument("--csv", metavar="DIR", help="write the summary, segments, surface raster and profiles as CSV here")

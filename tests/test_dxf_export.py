@@ -192,3 +192,13 @@ def test_results_drawing_imports_back(results, tmp_path):
 
     assert plan(imp.conductors) == plan(c for c in results.design.all_conductors() if c.kind != "rod")
     assert sorted((r.x_m, r.y_m) for r in imp.rods) == sorted((r.x_m, r.y_m) for r in results.design.rods)
+
+
+def test_default_levels_follow_the_field_when_the_limit_levels_miss_it():
+    # a design far above its limit: 25 % to 200 % of a 190 V limit (47 to 380 V) lie below every
+    # touch voltage of 1000 to 2300 V, so levels across that span are added
+    levels = default_levels(190.0, 1000.0, 2300.0)
+    inside = [lv for lv in levels if 1000.0 < lv < 2300.0]
+    assert len(inside) == 6 and 190.0 in levels
+    # levels that already cut the field are left as they are
+    assert default_levels(1000.0, 100.0, 900.0) == default_levels(1000.0)

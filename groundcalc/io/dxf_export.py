@@ -91,9 +91,19 @@ def parse_levels(text: str) -> list[float]:
     return sorted(set(out))
 
 
-def default_levels(limit_v: float) -> list[float]:
-    """Contour levels from the tolerable touch voltage: 25 % to 200 % of it, rounded to 1 V. [V]"""
-    return sorted({float(round(f * limit_v)) if f != 1.0 else float(limit_v) for f in DEFAULT_FRACTIONS})
+def default_levels(limit_v: float, low_v: float | None = None, high_v: float | None = None) -> list[float]:
+    """Contour levels from the tolerable touch voltage: 25 % to 200 % of it, rounded to 1 V. [V]
+
+    When the touch voltage on the drawing spans ``low_v`` to ``high_v`` and none of those levels
+    falls inside it (a design far above or below its limit), six levels evenly across the span,
+    rounded to two significant digits, are added so that the drawing still shows the field.
+    """
+    levels = {float(round(f * limit_v)) if f != 1.0 else float(limit_v) for f in DEFAULT_FRACTIONS}
+    if low_v is not None and high_v is not None and high_v > low_v:
+        if not any(low_v < lv < high_v for lv in levels):
+            for v in np.linspace(low_v, high_v, 8)[1:-1]:
+                levels.add(float(f"{v:.2g}"))
+    return sorted(levels)
 
 
 def touch_field_v(results) -> np.ndarray:
@@ -199,8 +209,8 @@ def build_results_dxf(results, levels: list[float] | None = None, units: str = "
 
     raster = results.field.raster
     limit = results.limits.touch_limit_v
-    levels = list(levels) if levels else default_levels(limit)
     touch_v = touch_field_v(results)
+    levels = list(levels) if levels else default_levels(limit, float(touch_v.min()), float(touch_v.max()))
     extent_m = float(max(raster.x[-1] - raster.x[0], raster.y[-1] - raster.y[0]))
     text_m = float(np.clip(extent_m / 120.0, 0.05, 2.0))
     h = text_m * k
