@@ -309,3 +309,22 @@ def test_cli_refuses_too_few_samples(tmp_path, capsys):
     with pytest.raises(SystemExit) as exc:
         main(["uncertainty", str(p), "--samples", "2"])
     assert exc.value.code == 2 and "--samples must be a whole number of 4 or more" in capsys.readouterr().err
+
+
+def test_soil_ranges_on_a_multilayer_soil_keep_its_deeper_layers():
+    # A range on the upper resistivity of a three-layer soil acts on the top layer only. Thomson's
+    # principle (the current takes the path of least dissipation): raising one layer's resistivity
+    # can only raise Rg, so samples below the design value give a lower Rg and samples above a higher
+    # one, and the band brackets the deterministic value. Dropping the deeper layers would move the
+    # whole band away from it.
+    layers = ((300.0, 1.5), (60.0, 4.0), (1000.0, None))
+    soil = Soil("multilayer", 300.0, 1.5, 60.0, layers=layers)
+    design = _tiny(soil=soil)
+    qs = (_q("upper resistivity", "Upper resistivity", "ohm*m", 200.0, 400.0),)
+    run = run_uncertainty(design, qs, samples=4, seed=3)
+    case = run.cases[0]
+    det = case.deterministic
+    assert det.design.soil.layers == layers
+    band = case.band("Rg")
+    assert band.p5 < det.resistance_ohm < band.p95
+    assert band.p95 / band.p5 < 1.5  # the top layer is thin: a 2:1 range in rho1 moves Rg far less

@@ -166,13 +166,14 @@ def _parse_row(cells: dict[str, Cell], fields: dict[str, Field], design: Design)
             fix="The fitted model brings its own uncertainty from the readings; delete this row, or give the soil "
             "model on the Soil sheet",
         )
-    if name in ("upper thickness", "lower resistivity") and design.soil.model != "two-layer":
+    if name in ("upper thickness", "lower resistivity") and design.soil.model not in ("two-layer", "multilayer"):
         raise InputError(
-            f"'{field.name}' needs a two-layer soil model, but the Soil sheet gives a uniform one",
+            f"'{field.name}' needs a layered soil model, but the Soil sheet gives a {design.soil.model} one",
             sheet=qcell.sheet,
             row=qcell.row,
             column=qcell.column,
-            fix="Vary 'Upper resistivity' for uniform soil, or give a two-layer model on the Soil sheet",
+            fix="Vary 'Upper resistivity' for uniform soil, or give a two-layer or multilayer model on the Soil sheet "
+            "(the ranges then act on its top two layers)",
         )
     if name.startswith("surface layer") and design.surface_layer is None:
         raise InputError(

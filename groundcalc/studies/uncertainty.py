@@ -334,12 +334,17 @@ def _apply(case: Design, base: Design, soil_params: np.ndarray | None, fit_param
         soil = Soil("two-layer", soil.rho1_ohm_m * ratio[0], soil.thickness_m * ratio[2], soil.rho2_ohm_m * ratio[1])
     vals = {k: _scaled(base_value(case, k), base_value(base, k), v) for k, v in values.items()}
     if any(k in vals for k in SOIL_QUANTITIES):
-        soil = Soil(
-            soil.model,
-            vals.get("upper resistivity", soil.rho1_ohm_m),
-            vals.get("upper thickness", soil.thickness_m),
-            vals.get("lower resistivity", soil.rho2_ohm_m),
-        )
+        rho1 = vals.get("upper resistivity", soil.rho1_ohm_m)
+        h1 = vals.get("upper thickness", soil.thickness_m)
+        rho2 = vals.get("lower resistivity", soil.rho2_ohm_m)
+        if soil.model == "multilayer":
+            # the ranges act on the top two layers; the deeper ones are kept (as a variant does)
+            layers = list(soil.layers)
+            layers[0] = (rho1, h1)
+            layers[1] = (rho2, layers[1][1])
+            soil = replace(soil, rho1_ohm_m=rho1, thickness_m=h1, rho2_ohm_m=rho2, layers=tuple(layers))
+        else:
+            soil = Soil(soil.model, rho1, h1, rho2)
     surface = case.surface_layer
     if surface is not None and ("surface layer resistivity" in values or "surface layer thickness" in values):
         surface = SurfaceLayer(
@@ -360,7 +365,7 @@ def _apply(case: Design, base: Design, soil_params: np.ndarray | None, fit_param
 
 
 def _soil_key(soil: Soil) -> tuple:
-    return (soil.model, soil.rho1_ohm_m, soil.thickness_m, soil.rho2_ohm_m)
+    return (soil.model, soil.rho1_ohm_m, soil.thickness_m, soil.rho2_ohm_m, tuple(soil.layers))
 
 
 def _evaluate(design: Design, pv: PerVolt) -> dict[str, float]:
