@@ -30,7 +30,7 @@ from ..model import (
     Notice,
     Profile,
 )
-from .segments import Segmentation, Segments, move_off_interface, segment_conductors
+from .segments import Segmentation, Segments, move_off_interface, not_connected_notice, segment_conductors
 
 __all__ = [
     "DEFAULT_FENCE_REACH_M",
@@ -156,22 +156,9 @@ def _concat(parts: list[Segmentation]) -> Segmentation:
 
 def _loose_grid_notice(seg: Segmentation, n_grid: int) -> Notice | None:
     """The 'not connected' warning, for grid conductors only (metal groups are connected by definition)."""
-    comps = np.asarray(seg.components)
-    lengths = np.array([c.length_m for c in seg.conductors])
-    totals: dict[int, float] = {}
-    for k in range(n_grid):
-        totals[int(comps[k])] = totals.get(int(comps[k]), 0.0) + float(lengths[k])
-    if len(totals) <= 1:
-        return None
-    main = max(totals, key=lambda k: totals[k])
-    loose = [seg.conductors[k].label for k in range(n_grid) if comps[k] != main]
-    return Notice(
-        "not-connected",
-        f"{len(loose)} conductor(s) do not touch the main grid and are still treated as "
-        "bonded to it (held at the GPR): "
-        + ", ".join(loose[:10])
-        + (" ..." if len(loose) > 10 else "")
-        + ". Check their end coordinates and depths.",
+    grid = seg.conductors[:n_grid]
+    return not_connected_notice(
+        [c.label for c in grid], np.asarray(seg.components)[:n_grid], [c.length_m for c in grid]
     )
 
 

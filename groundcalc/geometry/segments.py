@@ -325,6 +325,29 @@ def _free_ends(p0: np.ndarray, p1: np.ndarray, radius: np.ndarray, tol_m: float)
     return free
 
 
+def not_connected_notice(labels: list[str], components, lengths) -> Notice | None:
+    """Warning naming the conductors outside the largest connected part (by length), or None.
+
+    ``components`` gives the connected part of each conductor and ``lengths`` its length. [m]
+    """
+    comps = [int(c) for c in np.asarray(components).tolist()]
+    if len(set(comps)) <= 1:
+        return None
+    totals: dict[int, float] = {}
+    for comp, length in zip(comps, np.asarray(lengths, dtype=float).tolist(), strict=True):
+        totals[comp] = totals.get(comp, 0.0) + length
+    main = max(totals, key=lambda k: totals[k])
+    loose = [label for label, comp in zip(labels, comps, strict=True) if comp != main]
+    return Notice(
+        "not-connected",
+        f"{len(loose)} conductor(s) do not touch the main grid and are still treated as "
+        "bonded to it (held at the GPR): "
+        + ", ".join(loose[:10])
+        + (" ..." if len(loose) > 10 else "")
+        + ". Check their end coordinates and depths.",
+    )
+
+
 def segment_conductors(
     conductors: list[Conductor] | tuple[Conductor, ...],
     target_length_m: float,
@@ -383,22 +406,9 @@ def segment_conductors(
         uf.union(i, j)
     components = np.array([uf.find(i) for i in range(m)])
     notices: list[Notice] = []
-    if len(set(components.tolist())) > 1:
-        totals: dict[int, float] = {}
-        for comp, length in zip(components.tolist(), lengths.tolist(), strict=True):
-            totals[comp] = totals.get(comp, 0.0) + length
-        main = max(totals, key=lambda k: totals[k])
-        loose = [conductors[i].label for i in range(m) if components[i] != main]
-        notices.append(
-            Notice(
-                "not-connected",
-                f"{len(loose)} conductor(s) do not touch the main grid and are still treated as "
-                "bonded to it (held at the GPR): "
-                + ", ".join(loose[:10])
-                + (" ..." if len(loose) > 10 else "")
-                + ". Check their end coordinates and depths.",
-            )
-        )
+    loose_notice = not_connected_notice([c.label for c in conductors], components, lengths)
+    if loose_notice is not None:
+        notices.append(loose_notice)
 
     depths = () if interface_depth_m is None else tuple(np.atleast_1d(np.asarray(interface_depth_m, dtype=float)))
     for h in depths:

@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 import os
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -24,9 +23,6 @@ from ..model import Design
 from ..safety.materials import MATERIALS
 
 __all__ = ["DesignSummary", "buried_mass_kg", "rank", "run_parallel", "summarise", "summarise_file"]
-
-#: Environment variables that limit each worker's linear-algebra threads (one process per core).
-_THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 
 
 @dataclass
@@ -168,28 +164,15 @@ def default_jobs() -> int:
 
 
 def run_parallel(fn: Callable[[Any], DesignSummary], items: Sequence[Any], jobs: int) -> list[DesignSummary]:
-    """Apply ``fn`` to every item in ``jobs`` worker processes (in order; ``jobs = 1``: in this process).
+    """Apply ``fn`` to every item in ``jobs`` local worker processes (in order; ``jobs = 1``: in this process).
 
-    Workers are started fresh ("spawn") with one linear-algebra thread each, so
-    ``jobs`` processes use ``jobs`` cores and nothing inherited from this
-    process can deadlock them.
+    The same local pool as every study uses (:class:`groundcalc.studies.engine.Engine`): workers
+    are started fresh ("spawn") with one linear-algebra thread each, so ``jobs`` processes use
+    ``jobs`` cores and nothing inherited from this process can deadlock them.
     """
-    if jobs <= 1 or len(items) <= 1:
-        return [fn(it) for it in items]
-    import multiprocessing
+    from .engine import Engine
 
-    saved = {k: os.environ.get(k) for k in _THREAD_VARS}
-    os.environ.update({k: "1" for k in _THREAD_VARS})
-    try:
-        ctx = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=min(jobs, len(items)), mp_context=ctx) as pool:
-            return list(pool.map(fn, items))
-    finally:
-        for k, v in saved.items():
-            if v is None:
-                os.environ.pop(k, None)
-            else:
-                os.environ[k] = v
+    return Engine(jobs=jobs).map(fn, items, "designs")
 
 
 def rank(summaries: Sequence[DesignSummary]) -> list[int | None]:
