@@ -8,15 +8,25 @@ from pathlib import Path
 from xml.sax.saxutils import escape
 
 import numpy as np
-from reportlab.lib.pagesizes import A4, landscape
 from reportlab.lib.units import mm
-from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
+from reportlab.platypus import KeepTogether, Paragraph, Spacer, Table, TableStyle
 
-from ..cautions import DRAFT_MARK
 from ..studies.compare import DesignSummary
 from ..version import __version__
 from .maps import Marker, PlanFigure
-from .style import BODY, FAIL_COLOUR, H1, H2, PASS_COLOUR, SMALL, NumberedCanvas, cautions, references, table
+from .style import (
+    BODY,
+    FAIL_COLOUR,
+    H1,
+    H2,
+    PASS_COLOUR,
+    SMALL,
+    NumberedCanvas,
+    cautions,
+    draft_document,
+    references,
+    table,
+)
 
 __all__ = ["summary_table", "write_comparison_report"]
 
@@ -86,16 +96,7 @@ def write_comparison_report(
     first: str = "Design",
 ) -> None:
     """Write the side-by-side PDF: table, small plan views, cautions, references."""
-    doc = SimpleDocTemplate(
-        str(path),
-        pagesize=landscape(A4),
-        leftMargin=14 * mm,
-        rightMargin=14 * mm,
-        topMargin=18 * mm,
-        bottomMargin=16 * mm,
-        title=title,
-        subject=DRAFT_MARK,
-    )
+    doc = draft_document(path, title, wide=True)
     story = [
         Paragraph(title, H1),
         Paragraph(f"groundcalc {__version__}, {_dt.date.today().isoformat()}. {escape(intro)}", BODY),

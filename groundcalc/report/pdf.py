@@ -6,12 +6,10 @@ import datetime as _dt
 from pathlib import Path
 
 import numpy as np
-from reportlab.lib.pagesizes import A4
 from reportlab.lib.units import mm
-from reportlab.platypus import KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, TableStyle
+from reportlab.platypus import KeepTogether, PageBreak, Paragraph, Spacer, TableStyle
 
 from ..analysis import Results
-from ..cautions import DRAFT_MARK
 from ..io.outputs import CLOSED_FORM_NOTE, closed_form_rows
 from ..version import __version__
 from .charts import Series, line_chart
@@ -29,6 +27,7 @@ from .style import (
     VERDICT,
     NumberedCanvas,
     cautions,
+    draft_document,
     fmt,
     references,
     table,
@@ -403,17 +402,7 @@ def write_report(results: Results, path: str | Path, input_name: str, sha256: st
         ``(names, summaries, changes, geometry_solves)`` of the Variants
         sheet, shown after the summary.
     """
-    doc = SimpleDocTemplate(
-        str(path),
-        pagesize=A4,
-        leftMargin=18 * mm,
-        rightMargin=18 * mm,
-        topMargin=18 * mm,
-        bottomMargin=16 * mm,
-        title="groundcalc draft grounding study",
-        author=results.design.project.prepared_by or "groundcalc",
-        subject=DRAFT_MARK,
-    )
+    doc = draft_document(path, "groundcalc draft grounding study", results.design.project.prepared_by or "groundcalc")
     story = []
     story += title_block(results, input_name, sha256)
     story += summary(results)

@@ -8,15 +8,17 @@ from __future__ import annotations
 
 from reportlab.lib import colors
 from reportlab.lib.enums import TA_CENTER
+from reportlab.lib.pagesizes import A4, landscape
 from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
 from reportlab.lib.units import mm
 from reportlab.pdfgen import canvas as _canvas
-from reportlab.platypus import KeepTogether, Paragraph, Table, TableStyle
+from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Table, TableStyle
 
 from ..cautions import CAUTIONS, DRAFT_MARK
 from ..version import __version__
 
 __all__ = [
+    "draft_document",
     "BODY",
     "FAIL_COLOUR",
     "FIT_COLOUR",
@@ -135,3 +137,19 @@ def cautions() -> list:
     for head, text in CAUTIONS:
         items.append(Paragraph(f"<b>{head}.</b> {text}", BODY))
     return [KeepTogether(items)]
+
+
+def draft_document(path, title: str, author: str = "groundcalc", wide: bool = False) -> SimpleDocTemplate:
+    """The page setup every draft report shares: A4 (landscape when ``wide``), margins, PDF metadata."""
+    side = 14 * mm if wide else 18 * mm
+    return SimpleDocTemplate(
+        str(path),
+        pagesize=landscape(A4) if wide else A4,
+        leftMargin=side,
+        rightMargin=side,
+        topMargin=18 * mm,
+        bottomMargin=16 * mm,
+        title=title,
+        author=author,
+        subject=DRAFT_MARK,
+    )

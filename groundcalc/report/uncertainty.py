@@ -5,11 +5,9 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
-from reportlab.lib.pagesizes import A4
 from reportlab.lib.units import mm
-from reportlab.platypus import KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer
+from reportlab.platypus import KeepTogether, PageBreak, Paragraph, Spacer
 
-from ..cautions import DRAFT_MARK
 from ..model import Notice
 from ..studies.uncertainty import CONFIDENCE, CaseBand, UncertaintyRun
 from .charts import Series, line_chart
@@ -25,6 +23,7 @@ from .style import (
     UNIFORM_COLOUR,
     NumberedCanvas,
     cautions,
+    draft_document,
     references,
     table,
 )
@@ -162,17 +161,7 @@ def write_uncertainty_report(
     then the method, the deterministic summary and inputs of the base case.
     """
     base = run.cases[0].deterministic
-    doc = SimpleDocTemplate(
-        str(path),
-        pagesize=A4,
-        leftMargin=18 * mm,
-        rightMargin=18 * mm,
-        topMargin=18 * mm,
-        bottomMargin=16 * mm,
-        title="groundcalc draft uncertainty study",
-        author=base.design.project.prepared_by or "groundcalc",
-        subject=DRAFT_MARK,
-    )
+    doc = draft_document(path, "groundcalc draft uncertainty study", base.design.project.prepared_by or "groundcalc")
     story = title_block(base, input_name, sha256)
     story[0] = Paragraph("Substation grounding study - uncertainty band (draft)", H1)
     for k, case in enumerate(run.cases):
