@@ -257,6 +257,27 @@ FAULT = SheetSpec(
     required=True,
 )
 
+#: The metal group a conductor or rod belongs to (Conductors and Rods sheets).
+_GROUP_FIELD = Field(
+    "Group",
+    "text",
+    help="Metal group named on the 'Metal' sheet that this belongs to (other buried metal at its own "
+    "potential: a pipe, a rail, equipment not on the grid). Blank = the grid.",
+    typical="blank, or a name from the Metal sheet",
+)
+
+
+def _material_field(typical: str) -> Field:
+    """The Material column of the Conductors and Rods sheets, with the materials typical there."""
+    return Field(
+        "Material",
+        "material",
+        help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
+        "mass of metal. Blank = hard-drawn copper.",
+        typical=typical,
+    )
+
+
 CONDUCTORS = SheetSpec(
     "Conductors",
     "table",
@@ -277,20 +298,8 @@ CONDUCTORS = SheetSpec(
             "8 to 20 mm (e.g. 120 mm2 stranded copper is about 14 mm)",
             unit="mm",
         ),
-        Field(
-            "Material",
-            "material",
-            help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
-            "mass of metal. Blank = hard-drawn copper.",
-            typical="hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ...",
-        ),
-        Field(
-            "Group",
-            "text",
-            help="Metal group named on the 'Metal' sheet that this belongs to (other buried metal at its own "
-            "potential: a pipe, a rail, equipment not on the grid). Blank = the grid.",
-            typical="blank, or a name from the Metal sheet",
-        ),
+        _material_field("hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ..."),
+        _GROUP_FIELD,
     ),
     "One row per straight buried bare conductor. Conductors that cross or touch are joined.",
 )
@@ -312,20 +321,8 @@ RODS = SheetSpec(
         ),
         Field("Length", _LEN, True, "positive", "Driven length of the rod.", "2.4 to 30 m"),
         Field("Diameter", _LEN, True, "positive", "Rod diameter.", "12 to 25 mm", unit="mm"),
-        Field(
-            "Material",
-            "material",
-            help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
-            "mass of metal. Blank = hard-drawn copper.",
-            typical="copper-clad steel rod 20%, zinc-coated steel rod, stainless-clad steel rod, ...",
-        ),
-        Field(
-            "Group",
-            "text",
-            help="Metal group named on the 'Metal' sheet that this belongs to (other buried metal at its own "
-            "potential: a pipe, a rail, equipment not on the grid). Blank = the grid.",
-            typical="blank, or a name from the Metal sheet",
-        ),
+        _material_field("copper-clad steel rod 20%, zinc-coated steel rod, stainless-clad steel rod, ..."),
+        _GROUP_FIELD,
     ),
     "One row per driven vertical rod.",
 )
@@ -357,13 +354,7 @@ GRIDS = SheetSpec(
         ),
         Field("Depth", _LEN, True, "positive", "Burial depth of the grid.", "0.3 to 1.5 m"),
         Field("Diameter", _LEN, True, "positive", "Conductor diameter.", "8 to 20 mm", unit="mm"),
-        Field(
-            "Material",
-            "material",
-            help="Conductor material of IEEE Std 80 Table 1, for the fault-current sizing check and the "
-            "mass of metal. Blank = hard-drawn copper.",
-            typical="hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ...",
-        ),
+        _material_field("hard-drawn copper, annealed copper, copper-clad steel wire 40%, steel 1020, ..."),
     ),
     "Optional generator of rectangular grids with equal mesh spacing. Each row adds its grid lines to the conductors.",
 )
@@ -667,8 +658,18 @@ METAL_SHEETS = (METAL, FENCES, CHECK_POINTS, CHECK_AREAS, PROFILES)
 KEY_SHEETS = (PROJECT, SOIL, FAULT, SETTINGS)
 TABLE_SHEETS = (CONDUCTORS, RODS, GRIDS, WENNER, VARIANTS, LAYERS, UNCERTAINTY) + METAL_SHEETS
 ALL_SHEETS = (
-    (PROJECT, SOIL, FAULT, CONDUCTORS, RODS, GRIDS, SETTINGS, WENNER, VARIANTS, LAYERS, UNCERTAINTY) + METAL_SHEETS
-)
+    PROJECT,
+    SOIL,
+    FAULT,
+    CONDUCTORS,
+    RODS,
+    GRIDS,
+    SETTINGS,
+    WENNER,
+    VARIANTS,
+    LAYERS,
+    UNCERTAINTY,
+) + METAL_SHEETS
 
 
 def sheet_spec(name: str) -> SheetSpec:
