@@ -40,6 +40,8 @@ from typing import Literal, Protocol, runtime_checkable
 import numpy as np
 
 __all__ = [
+    "KernelLookup",
+    "PairKernel",
     "SURFACE",
     "DepthRanges",
     "Greens",
@@ -101,6 +103,52 @@ class Tail:
     def argument(self, z_o: np.ndarray, z_s: np.ndarray) -> np.ndarray:
         """Vertical argument ``v`` of the tail function. [m]"""
         return self.slope_o * z_o + self.slope_s * z_s + self.offset_m
+
+
+@dataclass(frozen=True)
+class PairKernel:
+    """Images of one (observer layer, source layer) pair, for models built from image series.
+
+    ``explicit`` are integrated exactly; the first ``direct`` of them are the
+    leading images, which distant pairs sum one by one; the rest are in the
+    radial tables there. ``tails`` are the smooth remainders.
+    """
+
+    explicit: tuple[Image, ...]
+    tails: tuple[Tail, ...] = ()
+    direct: int = 0
+
+    @property
+    def direct_images(self) -> tuple[Image, ...]:
+        return self.explicit[: self.direct]
+
+    @property
+    def other_images(self) -> tuple[Image, ...]:
+        return self.explicit[self.direct :]
+
+
+class KernelLookup:
+    """The image part of :class:`GreensFunction` for models that keep one :class:`PairKernel`
+    per buried layer pair (``_pairs``) and per source layer seen from the surface (``_surface``)."""
+
+    _pairs: dict[tuple[int, int], PairKernel]
+    _surface: dict[int, PairKernel]
+
+    def _kernel(self, layer_o: int, layer_s: int) -> PairKernel:
+        kern = self._surface.get(layer_s) if layer_o == SURFACE else self._pairs.get((layer_o, layer_s))
+        return kern if kern is not None else PairKernel(())
+
+    def layer_pairs(self) -> list[tuple[int, int]]:
+        return list(self._pairs)
+
+    def images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
+        return self._kernel(layer_o, layer_s).explicit
+
+    def leading_images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
+        return self._kernel(layer_o, layer_s).direct_images
+
+    def tails(self, layer_o: int, layer_s: int) -> tuple[Tail, ...]:
+        return self._kernel(layer_o, layer_s).tails
 
 
 @dataclass(frozen=True)

@@ -47,7 +47,7 @@ import numpy as np
 from scipy.interpolate import RectBivariateSpline, make_interp_spline
 
 from ..model import Soil
-from .greens import SURFACE, DepthRanges, Image, RadialPart, Tail
+from .greens import SURFACE, DepthRanges, Image, KernelLookup, PairKernel, RadialPart, Tail
 from .hankel import SMALL_R, hankel_j0, hankel_j0_near_axis
 from .twolayer import MAX_DEPTH_GROUPS, MAX_EXPLICIT
 
@@ -70,23 +70,6 @@ _D_FLOOR = 1e-4
 def depth_key(z: float) -> float:
     """Depth rounded to a nanometre for use as a table key. [m]"""
     return float(np.round(float(z), 9))
-
-
-@dataclass(frozen=True)
-class PairKernel:
-    """Explicit images (the ``direct`` leading ones first) and tails of one layer pair."""
-
-    explicit: tuple[Image, ...]
-    tails: tuple[Tail, ...] = ()
-    direct: int = 0
-
-    @property
-    def direct_images(self) -> tuple[Image, ...]:
-        return self.explicit[: self.direct]
-
-    @property
-    def other_images(self) -> tuple[Image, ...]:
-        return self.explicit[self.direct :]
 
 
 @dataclass(frozen=True)
@@ -571,7 +554,7 @@ class RadialTable:
         return s1, s3, s5
 
 
-class MultiLayerGreens:
+class MultiLayerGreens(KernelLookup):
     """Green's function of an N-layer soil: explicit images, Hankel-transform tables, tails.
 
     Built by :func:`multilayer_greens`; implements
@@ -590,22 +573,6 @@ class MultiLayerGreens:
         self.explicit_terms = info["explicit_terms"]
         self.tolerance = info["tolerance"]
         self.notes = info["notes"]
-
-    def _kernel(self, layer_o: int, layer_s: int) -> PairKernel:
-        kern = self._surface.get(layer_s) if layer_o == SURFACE else self._pairs.get((layer_o, layer_s))
-        return kern if kern is not None else PairKernel(())
-
-    def layer_pairs(self) -> list[tuple[int, int]]:
-        return list(self._pairs)
-
-    def images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
-        return self._kernel(layer_o, layer_s).explicit
-
-    def leading_images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
-        return self._kernel(layer_o, layer_s).direct_images
-
-    def tails(self, layer_o: int, layer_s: int) -> tuple[Tail, ...]:
-        return self._kernel(layer_o, layer_s).tails
 
     def tail_sum(self, d: np.ndarray, v: np.ndarray) -> np.ndarray:
         return self._tail_function(d, v)

@@ -38,7 +38,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..model import Soil
-from .greens import SURFACE, DepthRanges, Image, RadialPart, Tail
+from .greens import SURFACE, DepthRanges, Image, KernelLookup, RadialPart, Tail
+from .greens import PairKernel as _PairKernel
 from .tables import RadialSums, TailTable, series_sums
 
 __all__ = [
@@ -57,28 +58,6 @@ MAX_DEPTH_GROUPS = 6
 def _depth_key(z: float) -> float:
     """Depth rounded to a nanometre for use as a table key. [m]"""
     return float(np.round(float(z), 9))
-
-
-@dataclass(frozen=True)
-class _PairKernel:
-    """Images for one (observer layer, source layer) pair.
-
-    ``explicit`` are integrated exactly; the first ``direct`` of them are the
-    leading (n = 0) images, which distant pairs sum one by one; the rest are
-    in the radial tables there. ``tails`` are the smooth remainders.
-    """
-
-    explicit: tuple[Image, ...]
-    tails: tuple[Tail, ...] = ()
-    direct: int = 0
-
-    @property
-    def direct_images(self) -> tuple[Image, ...]:
-        return self.explicit[: self.direct]
-
-    @property
-    def other_images(self) -> tuple[Image, ...]:
-        return self.explicit[self.direct :]
 
 
 @dataclass(frozen=True)
@@ -220,7 +199,7 @@ def _radial(
     )
 
 
-class TwoLayerGreens:
+class TwoLayerGreens(KernelLookup):
     """Green's function of two-layer soil: explicit images, tables of radial sums, tails.
 
     Built by :func:`two_layer_greens`; implements
@@ -249,22 +228,6 @@ class TwoLayerGreens:
         self.explicit_terms = explicit_terms
         self.tolerance = tolerance
         self.notes = notes
-
-    def _kernel(self, layer_o: int, layer_s: int) -> _PairKernel:
-        kern = self._surface.get(layer_s) if layer_o == SURFACE else self._pairs.get((layer_o, layer_s))
-        return kern if kern is not None else _PairKernel(())
-
-    def layer_pairs(self) -> list[tuple[int, int]]:
-        return list(self._pairs)
-
-    def images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
-        return self._kernel(layer_o, layer_s).explicit
-
-    def leading_images(self, layer_o: int, layer_s: int) -> tuple[Image, ...]:
-        return self._kernel(layer_o, layer_s).direct_images
-
-    def tails(self, layer_o: int, layer_s: int) -> tuple[Tail, ...]:
-        return self._kernel(layer_o, layer_s).tails
 
     def tail_sum(self, d: np.ndarray, v: np.ndarray) -> np.ndarray:
         if self._tail_table is None:
