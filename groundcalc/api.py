@@ -337,7 +337,8 @@ def compare(
         A workbook that cannot be read gives a row with its ``error``.
     """
     from .io.frames import summaries_frame
-    from .studies.compare import rank, run_parallel, summarise_design, summarise_file
+    from .studies.compare import rank, summarise_design, summarise_file
+    from .studies.engine import run_parallel
 
     if isinstance(designs, Design):
         from .studies.compare import summarise

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -22,7 +22,7 @@ from ..errors import InputError
 from ..model import Design
 from ..safety.materials import MATERIALS
 
-__all__ = ["DesignSummary", "buried_mass_kg", "rank", "run_parallel", "summarise", "summarise_file"]
+__all__ = ["DesignSummary", "buried_mass_kg", "rank", "summarise", "summarise_file"]
 
 
 @dataclass
@@ -161,18 +161,6 @@ def summarise_design(item: tuple[str, Design]) -> DesignSummary:
 def default_jobs() -> int:
     """Worker processes by default: one per core."""
     return max(1, os.cpu_count() or 1)
-
-
-def run_parallel(fn: Callable[[Any], DesignSummary], items: Sequence[Any], jobs: int) -> list[DesignSummary]:
-    """Apply ``fn`` to every item in ``jobs`` local worker processes (in order; ``jobs = 1``: in this process).
-
-    The same local pool as every study uses (:class:`groundcalc.studies.engine.Engine`): workers
-    are started fresh ("spawn") with one linear-algebra thread each, so ``jobs`` processes use
-    ``jobs`` cores and nothing inherited from this process can deadlock them.
-    """
-    from .engine import Engine
-
-    return Engine(jobs=jobs).map(fn, items, "designs")
 
 
 def rank(summaries: Sequence[DesignSummary]) -> list[int | None]:

@@ -29,7 +29,7 @@ from typing import Any
 
 from ..errors import InputError
 
-__all__ = ["Engine", "Progress", "summarise_bytes", "workbook_item"]
+__all__ = ["Engine", "Progress", "run_parallel", "summarise_bytes", "workbook_item"]
 
 log = logging.getLogger("groundcalc.studies")
 
@@ -260,3 +260,13 @@ def summarise_bytes(item: tuple[str, str, bytes | None]):
         s = summarise_file(str(p))
     s.name, s.source = name, source
     return s
+
+
+def run_parallel(fn: Callable[[Any], Any], items: Sequence[Any], jobs: int) -> list[Any]:
+    """Apply ``fn`` to every item in ``jobs`` local worker processes (in order; ``jobs = 1``: in this process).
+
+    The same local pool as every study uses (:class:`Engine`): workers
+    are started fresh ("spawn") with one linear-algebra thread each, so ``jobs`` processes use
+    ``jobs`` cores and nothing inherited from this process can deadlock them.
+    """
+    return Engine(jobs=jobs).map(fn, items, "designs")

@@ -188,7 +188,8 @@ def run_sweep(
         per layout, whose ``extra`` holds the spacing, conductor counts and
         rods added.
     """
-    from .compare import run_parallel, summarise_design
+    from .compare import summarise_design
+    from .engine import run_parallel
 
     layouts = sweep_layouts(design, spacings_m, rod_counts, rod_length_m, rod_diameter_m)
     items = [(lay.name, lay.design) for lay in layouts]

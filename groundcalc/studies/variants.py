@@ -167,8 +167,10 @@ def apply_variant(base: Design, variant: Variant) -> Design:
                 field=("soil", name),
                 fix="Give both to make the soil two-layer, or neither",
             )
-        soil = Soil("two-layer", rho1, so.thickness_m, so.rho2_ohm_m) if so.thickness_m is not None else Soil(
-            "uniform", rho1
+        soil = (
+            Soil("two-layer", rho1, so.thickness_m, so.rho2_ohm_m)
+            if so.thickness_m is not None
+            else Soil("uniform", rho1)
         )
     elif soil.model == "multilayer":
         # overrides act on the top two layers; the deeper ones are kept
