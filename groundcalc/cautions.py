@@ -24,7 +24,8 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "Closed forms and conductor sizing are checks, not the design",
         "The IEEE Std 80 closed forms assume uniform soil and regular grids; the numerical result is "
         "the design value. Sizing assumes a solid round conductor carrying Df x 3I0 for the fault "
-        "duration; stranding, joints, corrosion and mechanical strength are the engineer's to check.",
+        "duration; stranding, joints, corrosion and mechanical strength are the engineer's to check. "
+        "Ranking compared or swept layouts by metal mass is a material estimate, not a recommendation.",
     ),
     (
         "Model assumptions",
@@ -35,9 +36,21 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "sheaths, neutrals or other impedances, are not modelled; other buried metal only as entered.",
     ),
     (
+        "Layered soil models",
+        "A fitted third layer is preferred by an information criterion, not proven; layers deeper "
+        "than the longest Wenner spacing can see are not resolved, yet they can change the "
+        "resistance of a large grid a lot.",
+    ),
+    (
         "Input data dominate",
         "Soil resistivity, fault current, split factor and clearing time decide the answer. "
         "Check them, and consider seasonal changes (frozen or dry soil).",
+    ),
+    (
+        "Uncertainty band",
+        "The band covers only the two-layer fit's covariance and the ranges typed on the Uncertainty "
+        "sheet; when another soil model is preferred it uses the two-layer fit and says so. Its "
+        "percentiles come from a finite Latin hypercube and carry sampling error.",
     ),
     (
         "Where touch and step are checked",
@@ -45,6 +58,12 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "reach on both sides, on gates over their swing and at the check points; metal left off the "
         "workbook is not checked. Step is checked over the grid and margin, the fence-reach bands and "
         "the check areas. Fence posts are bare rods from grade (no footings).",
+    ),
+    (
+        "Drawings (DXF)",
+        "Import reads model space only, ignores z, takes the unit from $INSUNITS or --units, replaces "
+        "arcs and circles by chords, drops unmapped layers and imports no fences. Exported contours "
+        "are linear within raster cells; exceeded areas are accurate to one raster cell.",
     ),
     (
         "Tables and the Python API",
@@ -56,11 +75,5 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "The error estimate compares with a solve at twice the segment length and covers the "
         "segment length only, not the thin-wire model at rod ends (about 0.1 %), the soil model or "
         "the raster search. Above 1 %: shorten the segments.",
-    ),
-    (
-        "Layered soil models",
-        "A fitted third layer is preferred by an information criterion, not proven; layers deeper "
-        "than the longest Wenner spacing can see are not resolved, yet they can change the "
-        "resistance of a large grid a lot.",
     ),
 )

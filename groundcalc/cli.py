@@ -660,9 +660,14 @@ def _parser() -> argparse.ArgumentParser:
     i.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     i.set_defaults(func=_cmd_import)
 
-    s = sub.add_parser("soil", help="fit uniform, two- and three-layer soil models to Wenner readings")
+    s = sub.add_parser("soil", help="fit soil models of 1 to 3 (or 4) layers to Wenner readings")
     s.add_argument("workbook", help="workbook with a 'Wenner' sheet (.xlsx)")
-    s.add_argument("--write-design", metavar="XLSX", help="write a copy of the workbook with the fitted model")
+    s.add_argument(
+        "--write-design",
+        metavar="XLSX",
+        help="write a copy of the workbook with the preferred model (two-layer on the Soil sheet, "
+        "or a Layers sheet for 3 or more layers)",
+    )
     s.add_argument("--max-layers", type=int, choices=(3, 4), default=3, help="fit 1 to this many layers (default 3)")
     s.add_argument(
         "--criterion", choices=("BIC", "AIC"), default="BIC", help="information criterion that ranks them (default BIC)"

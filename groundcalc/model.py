@@ -74,15 +74,16 @@ class Soil:
     Parameters
     ----------
     model : str
-        ``"uniform"`` (default), ``"two-layer"``, or ``"fitted"`` (a two-layer
-        model still to be fitted to the design's Wenner readings; it has no
-        resistivities yet: ``rho1_ohm_m`` is ``None``).
+        ``"uniform"`` (default), ``"two-layer"``, ``"multilayer"`` (the
+        ``layers`` below), or ``"fitted"`` (a model of 1, 2 or 3 layers still to
+        be fitted to the design's Wenner readings, whichever the BIC prefers; it
+        has no resistivities yet: ``rho1_ohm_m`` is ``None``).
     rho1_ohm_m : float or None
         Upper (or only) layer resistivity; ``None`` only for a fitted model. [ohm*m]
     thickness_m : float or None
-        Upper layer thickness H (two-layer only). [m]
+        Upper layer thickness H (two-layer, and the top layer of multilayer). [m]
     rho2_ohm_m : float or None
-        Lower layer resistivity (two-layer only). [ohm*m]
+        Lower layer resistivity (two-layer), or the second layer's (multilayer). [ohm*m]
     layers : tuple of (float, float or None)
         ``"multilayer"`` only: (resistivity [ohm*m], thickness [m]) of every
         layer from the top, the last thickness ``None``; ``rho1_ohm_m``,
