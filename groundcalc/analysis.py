@@ -176,7 +176,11 @@ class Results:
 
 
 def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
-    """Replace a ``fitted`` soil model by the two-layer model fitted to the design's Wenner readings."""
+    """Replace a ``fitted`` soil model by the model fitted to the design's Wenner readings.
+
+    Uniform, two- and three-layer models are fitted; the one the Bayesian information criterion
+    prefers replaces ``fitted`` (the two-layer image series serves two layers).
+    """
     if design.soil.model != "fitted":
         return design, None
     fit = fit_soil(design.wenner, max_layers=3)
