@@ -54,7 +54,7 @@ def _points(n=300, seed=3, depth=8.0):
 
 def test_point_potential_of_two_layers_equals_the_image_series():
     # Layer recursion (Sunde 1968 sec. 2.6) with N = 2 against the two-layer image series
-    # (Tagg 1964 ch. 5; DESIGN.md), observer and source in every layer pair.
+    # (Tagg 1964 ch. 5; Sunde 1968 sec. 2.5), observer and source in every layer pair.
     p, q = _points()
     for rho1, rho2, h in [(300.0, 60.0, 2.0), (50.0, 900.0, 1.2)]:
         ref = twolayer.point_potential(p, q, Soil("two-layer", rho1, h, rho2))
@@ -104,7 +104,8 @@ def test_equal_resistivities_give_uniform_soil():
     ],
 )
 def test_three_layers_reduce_to_the_two_layer_image_series(layers, two, relabel):
-    # Matrix entries and grid resistance against the two-layer image series (DESIGN.md) to 1e-6.
+    # Matrix entries and grid resistance against the two-layer image series (Tagg 1964 ch. 5;
+    # Sunde 1968 sec. 2.5) to 1e-6.
     dz, dr, _ = _compare(multilayer(layers), Soil("two-layer", two[0], two[1], two[2]), relabel)
     assert dz < 1e-6 and abs(dr) < 1e-6
 
