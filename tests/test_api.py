@@ -69,9 +69,9 @@ def test_package_front_door_exports_the_entry_points_and_model():
 def test_one_rod_matches_dwight_and_the_line_source(rod):
     # Dwight, AIEE Trans. 55 (1936): R = rho/(2 pi L) [ln(4L/a) - 1] = 33.49 ohm for rho = 100, L = 3 m,
     # a = 8 mm [calc] (docs/references.md). Dwight assumes a uniform current; the graded solution lets the
-    # current crowd toward the ends and lies below it (Galerkin variational upper bound, R. F. Harrington, Field Computation by
-    # Moment Methods, 1968 [mem]): a solid-cylinder
-    # boundary solution gives 33.194 ohm, 0.89 % below Dwight (tests/data/rod_reference.py).
+    # current crowd toward the ends and lies below it (Galerkin variational upper bound, R. F. Harrington,
+    # Field Computation by Moment Methods, 1968 [mem]): a solid-cylinder boundary solution gives
+    # 33.194 ohm, 0.89 % below Dwight (tests/data/rod_reference.py).
     dwight = 100.0 / (2 * math.pi * 3.0) * (math.log(4 * 3.0 / 0.008) - 1.0)
     assert dwight * (1 - 0.012) < rod.resistance_ohm < dwight
     assert rod.grid_current_a == pytest.approx(1000.0)  # Df = 1 at X/R = 0 (IEEE Std 80 Eq. 79), Sf = 1

@@ -46,7 +46,8 @@ def test_layout_of_example_1():
     assert (q.depth_m, q.diameter_m) == pytest.approx((0.5, 0.01))
     assert (q.rod_count, q.rods_on_perimeter) == (0, False)
     c = _closed(d)
-    # Sverak 2.78 ohm [mem], n = 11 [mem], Ki = 2.272 [mem], Km = 0.89 [mem], Em = 1002.1 V [mem] (1 %: rounded intermediates)
+    # Sverak 2.78 ohm [mem], n = 11 [mem], Ki = 2.272 [mem], Km = 0.89 [mem], Em = 1002.1 V [mem]
+    # (1 %: rounded intermediates)
     assert c.sverak_ohm == pytest.approx(2.78, abs=0.005)
     assert c.n == pytest.approx(11.0)
     assert c.ki == pytest.approx(2.272)

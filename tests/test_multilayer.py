@@ -63,6 +63,8 @@ def test_point_potential_of_two_layers_equals_the_image_series():
 
 
 def test_point_potential_limits_of_three_layers():
+    # Physical limits, no outside value: equal layers are uniform soil; a layer with the resistivity of
+    # the one below merges with it (two layers); a vanishing middle layer is a first-order perturbation.
     p, q = _points()
     uni = twolayer.point_potential(p, q, Soil("uniform", 120.0))
     assert np.abs(point_potential(p, q, Profile((120.0,) * 3, (1.5, 4.0))) / uni - 1).max() < 1e-9
@@ -138,7 +140,8 @@ def test_surface_potential_of_three_layers_with_rho3_equal_rho2():
 
 
 def test_thin_middle_layer_tends_to_two_layers():
-    # A middle layer of vanishing thickness changes the resistance in proportion to its thickness.
+    # A middle layer of vanishing thickness changes the resistance in proportion to its thickness
+    # (first-order perturbation in the thickness; a limit check, no outside value).
     two = Soil("two-layer", 300.0, 2.0, 60.0)
     changes = []
     for th in (0.2, 0.04):
