@@ -67,8 +67,8 @@ def annex_b1_conductors():
 
 
 def test_annex_b1_resistance_below_sverak_and_within_6_percent(annex_b1_conductors):
-    # IEEE Std 80-2000 Annex B, Example 1: Sverak (Eq. 52) gives Rg = 2.78 ohm [mem; 2.779
-    # recomputed from Eq. 52 with A = 4900 m2, LT = 1540 m, h = 0.5 m, rho = 400].
+    # IEEE Std 80-2000 Annex B, Example 1: Sverak (Eq. 52) gives Rg = 2.78 ohm [mem]; 2.776
+    # [calc] from Eq. 52 with A = 4900 m2, LT = 1540 m, h = 0.5 m, rho = 400.
     # Sverak's formula is an upper estimate for such grids (common practice): the method of moments
     # must lie below 2.78 and within 6 % of it.
     a, lt, h, rho = 4900.0, 1540.0, 0.5, 400.0
