@@ -10,7 +10,7 @@ import pytest
 from groundcalc.model import Design, Fault, GridSpec, Project, Rod, Settings, Soil, SurfaceLayer
 
 ROOT = Path(__file__).resolve().parents[1]
-#: Annex B surface layer: rho_s = 2500 ohm*m, h_s = 0.102 m [mem, REFERENCES.md].
+#: Annex B surface layer: rho_s = 2500 ohm*m, h_s = 0.102 m [mem] (docs/references.md).
 ANNEX_B_SURFACE = SurfaceLayer(2500.0, 0.102)
 
 
@@ -21,13 +21,13 @@ def _quiet_logs():
 
 
 def annex_b_fault() -> Fault:
-    """IEEE Std 80-2000 Annex B common data: 3I0 = 3180 A, Sf = 0.6, Df = 1, 0.5 s, 70 kg
-    (I_G = 1908 A [doc]; durations and Sf [doc/mem], see shared/REFERENCES.md)."""
+    """IEEE Std 80-2000 Annex B common data: 3I0 = 3180 A, Sf = 0.6, Df = 1, 0.5 s, 70 kg [mem]
+    (I_G = 1908 A [doc]; see docs/references.md, "IEEE Std 80-2000 Annex B and tables")."""
     return Fault(3180.0, 0.6, 0.0, 0.5, 0.5, 70.0, 60.0)
 
 
 def annex_b_grid(n: int = 11, rods: bool = False) -> list:
-    """Annex B Example 1 grid: 70 m x 70 m, 11 x 11 conductors, h = 0.5 m, d = 0.01 m [doc]."""
+    """Annex B Example 1 grid: 70 m x 70 m, 11 x 11 conductors [mem]; h = 0.5 m, d = 0.01 m [doc]."""
     return [GridSpec("B1", 0.0, 0.0, 70.0, 70.0, n, n, 0.5, 0.01)]
 
 

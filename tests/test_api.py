@@ -68,9 +68,10 @@ def test_package_front_door_exports_the_entry_points_and_model():
 
 def test_one_rod_matches_dwight_and_the_line_source(rod):
     # Dwight, AIEE Trans. 55 (1936): R = rho/(2 pi L) [ln(4L/a) - 1] = 33.49 ohm for rho = 100, L = 3 m,
-    # a = 8 mm [calc, docs/references.md]. Dwight assumes a uniform current; the graded solution lets the
-    # current crowd toward the ends and lies below it (Galerkin upper bound, DESIGN.md): a solid-cylinder
-    # boundary solution gives 33.194 ohm, 0.89 % below Dwight (tests/data/rod_reference.py).
+    # a = 8 mm [calc] (docs/references.md). Dwight assumes a uniform current; the graded solution lets the
+    # current crowd toward the ends and lies below it (Galerkin variational upper bound, R. F. Harrington,
+    # Field Computation by Moment Methods, 1968 [mem]): a solid-cylinder boundary solution gives
+    # 33.194 ohm, 0.89 % below Dwight (tests/data/rod_reference.py).
     dwight = 100.0 / (2 * math.pi * 3.0) * (math.log(4 * 3.0 / 0.008) - 1.0)
     assert dwight * (1 - 0.012) < rod.resistance_ohm < dwight
     assert rod.grid_current_a == pytest.approx(1000.0)  # Df = 1 at X/R = 0 (IEEE Std 80 Eq. 79), Sf = 1
@@ -93,12 +94,13 @@ def test_flat_fields_against_annex_b_values(grid):
     assert grid.grid_current_a == pytest.approx(1908.0, rel=1e-12)
     assert grid.decrement_factor == pytest.approx(1.0)
     # Annex B Ex. 1: tolerable touch 70 kg = 838.2 V with Cs rounded to 0.74 [doc]; 840.5 V with the
-    # unrounded Cs of Eq. 27 [calc, REFERENCES]. Step 2686.6 V (rounded Cs) / 2696.1 V (unrounded) [mem/calc].
+    # unrounded Cs of Eq. 27 [calc]. Step 2686.6 V with the rounded Cs [mem]; 2696.1 V unrounded [calc].
     assert grid.touch_limit_v == pytest.approx(840.5, abs=0.1)
     assert grid.step_limit_v == pytest.approx(2696.1, abs=0.1)
-    assert grid.surface_layer_factor_cs == pytest.approx(0.7429, abs=1e-4)  # Eq. 27 unrounded [mem/calc]
+    assert grid.surface_layer_factor_cs == pytest.approx(0.7429, abs=1e-4)  # Eq. 27 unrounded [calc]
     assert grid.ieee80_touch_limit_v == grid.touch_limit_v  # no user-defined limit
-    # Sverak (IEEE Std 80 Eq. 52): Rg = rho [1/LT + 1/sqrt(20 A) (1 + 1/(1 + h sqrt(20/A)))] [doc formula]
+    # Sverak (IEEE Std 80 Eq. 52): Rg = rho [1/LT + 1/sqrt(20 A) (1 + 1/(1 + h sqrt(20/A)))] [mem];
+    # it reproduces the Annex B Ex. 4 value 2.74 ohm [doc] (tests/test_ieee80.py)
     lt, area, h = 6 * 20.0, 400.0, 0.5
     sverak = 400.0 * (1 / lt + 1 / math.sqrt(20 * area) * (1 + 1 / (1 + h * math.sqrt(20 / area))))
     assert grid.sverak_resistance_ohm == pytest.approx(sverak, rel=1e-9)

@@ -57,7 +57,7 @@ def test_compare_annex_b_examples_1_and_2(tmp_path, capsys):
     assert d["ex2"]["grid_resistance_ohm"] < d["ex1"]["grid_resistance_ohm"]
     assert d["ex2"]["max_touch_v"] < d["ex1"]["max_touch_v"]
     assert d["ex2"]["rod_count"] == 20 and d["ex2"]["total_rod_length_m"] == pytest.approx(150.0)
-    assert d["ex1"]["total_conductor_length_m"] == pytest.approx(1540.0)  # LC of Annex B Ex. 1 [doc]
+    assert d["ex1"]["total_conductor_length_m"] == pytest.approx(1540.0)  # LC of Annex B Ex. 1 [mem]
     # buried copper: 1540 m of 10 mm conductor at 8890 kg/m3 (common practice) = 1075 kg
     assert d["ex1"]["buried_mass_kg"] == pytest.approx(1540 * 3.14159265 * 0.005**2 * 8890, rel=1e-6)
     # the worse one fails the touch criterion, the better one passes and is ranked

@@ -5,7 +5,7 @@ cylinder (lateral surface and bottom disc) with the ring-source kernel written w
 elliptic integral, extrapolated in the panel count. It does not use groundcalc. It is itself checked
 here against Dwight's formula (H. B. Dwight, "Calculation of resistances to ground", AIEE Trans. 55,
 1936: R = rho/(2 pi L) [ln(4L/a) - 1]) and against Tagg's image-series formula for a rod in the upper
-layer (G. F. Tagg, Earth Resistances, 1964; value from shared/REFERENCES.md [calc]).
+layer (G. F. Tagg, Earth Resistances, 1964; the value is [calc] from that formula, docs/references.md).
 """
 
 from __future__ import annotations
@@ -48,8 +48,8 @@ def dwight(rho, length, a):
 
 def test_cylinder_reference_converges_and_sits_below_dwight():
     # The reference converges monotonically from above (order about 2.6 from three levels) and lies
-    # about 0.9 % below Dwight's 33.49 ohm (design notes; REFERENCES.md: "a converged thin-wire method of
-    # moments sits slightly below (about 1 %)").
+    # about 0.9 % below Dwight's 33.49 ohm ([calc] from Dwight 1936; a converged thin-wire method of
+    # moments sitting about 1 % below Dwight is common practice [mem]).
     u = REF["uniform"]
     vals = u["values_ohm"]
     assert vals[0] > vals[1] > vals[2] > u["reference_ohm"]
@@ -65,8 +65,8 @@ def test_two_layer_reference_converges_and_matches_tagg_in_the_upper_layer():
     t = REF["two-layer"]
     assert t["values_ohm"][0] > t["values_ohm"][1] > t["values_ohm"][2] > t["reference_ohm"]
     assert t["observed_order"] > 2.0
-    # Tagg's series for a rod wholly in the upper layer (rho1 = 100, rho2 = 300, H = 5 m): 35.75 ohm [calc,
-    # REFERENCES.md]. Like Dwight's formula it is an approximation a little above the cylinder (0.6 % here,
+    # Tagg's series for a rod wholly in the upper layer (rho1 = 100, rho2 = 300, H = 5 m): 35.75 ohm [calc]
+    # from Tagg 1964. Like Dwight's formula it is an approximation a little above the cylinder (0.6 % here,
     # against 0.9 % for Dwight in uniform soil).
     k = (300 - 100) / 400
     tagg = (
@@ -141,7 +141,8 @@ def grid_sequence(case, lengths=(2.0, 1.0, 0.5)):
 
 
 def test_rod_and_grid_converges_at_least_as_h_in_uniform_soil():
-    # Observed order from three levels (the finite-element habit of fitting the rate, STYLE.md): at least 1,
+    # Observed order from three levels (observed order of accuracy, P. J. Roache,
+    # Verification and Validation in Computational Science and Engineering, 1998 [mem]): at least 1,
     # so the error against the extrapolated reference at least halves per halving (measured 1.2).
     r2, r1, r05 = grid_sequence("uniform")
     order = math.log2((r2 - r1) / (r1 - r05))

@@ -21,9 +21,9 @@ def _closed(design):
 
 
 def l_shape_design(rods=True):
-    """Annex B Ex. 4 L-shape [doc: LC = 1575 m, A = 4900 m2, Lp = 350 m] as we lay it out: a 70 m x 35 m
+    """Annex B Ex. 4 L-shape (LC = 1575 m, A = 4900 m2, Lp = 350 m [mem]) as we lay it out: a 70 m x 35 m
     part (6 conductors along x, 11 along y) and a 35 m x 70 m part above its left half, 7 m spacing;
-    24 rods of 7.5 m on the perimeter (LR = 180 m [doc]; positions ours)."""
+    24 rods of 7.5 m on the perimeter (LR = 180 m [mem]; positions ours)."""
     grid = GridSpec("A", 0.0, 0.0, 70.0, 35.0, 6, 11, 0.5, 0.01)
     conds = [Conductor(f"BX{k}", (0.0, y, 0.5), (35.0, y, 0.5), 0.01) for k, y in enumerate(range(42, 106, 7))]
     conds += [Conductor(f"BY{k}", (x, 35.0, 0.5), (x, 105.0, 0.5), 0.01) for k, x in enumerate(range(0, 36, 7))]
@@ -39,14 +39,15 @@ def l_shape_design(rods=True):
 
 
 def test_layout_of_example_1():
-    # Annex B Ex. 1: LC = 1540 m, A = 4900 m2, Lp = 280 m, D = 7 m, h = 0.5 m, d = 0.01 m [doc].
+    # Annex B Ex. 1: LC = 1540 m, A = 4900 m2, Lp = 280 m [mem]; D = 7 m, h = 0.5 m, d = 0.01 m [doc].
     d = make_design(grids=annex_b_grid())
     q = layout_quantities(d, compute_footprint(plan_lines(d)))
     assert (q.lc_m, q.area_m2, q.perimeter_m, q.spacing_m) == pytest.approx((1540.0, 4900.0, 280.0, 7.0))
     assert (q.depth_m, q.diameter_m) == pytest.approx((0.5, 0.01))
     assert (q.rod_count, q.rods_on_perimeter) == (0, False)
     c = _closed(d)
-    # Sverak 2.78 ohm [mem], n = 11, Ki = 2.272, Km = 0.89 [mem], Em = 1002.1 V [mem] (1 %: rounded intermediates)
+    # Sverak 2.78 ohm [mem], n = 11 [mem], Ki = 2.272 [mem], Km = 0.89 [mem], Em = 1002.1 V [mem]
+    # (1 %: rounded intermediates)
     assert c.sverak_ohm == pytest.approx(2.78, abs=0.005)
     assert c.n == pytest.approx(11.0)
     assert c.ki == pytest.approx(2.272)
@@ -56,8 +57,8 @@ def test_layout_of_example_1():
 
 
 def test_layout_of_example_2_finds_perimeter_rods():
-    # Annex B Ex. 2: 20 rods of 7.5 m on the perimeter, LR = 150 m [mem]; Km = 0.77 [mem], Em = 747.4 V,
-    # Es = 548.9 V [mem], Sverak 2.75 ohm [mem/calc].
+    # Annex B Ex. 2: 20 rods of 7.5 m on the perimeter, LR = 150 m [mem]; Km = 0.77 [mem], Em = 747.4 V [mem],
+    # Es = 548.9 V [mem], Sverak 2.75 ohm [mem].
     d = make_design(grids=annex_b_grid(), rods=annex_b_perimeter_rods())
     c = _closed(d)
     assert c.layout.rods_on_perimeter and c.layout.rod_count == 20
@@ -77,8 +78,8 @@ def test_interior_rods_are_not_perimeter_rods():
 
 
 def test_layout_of_example_4_l_shape():
-    # Annex B Ex. 4 [doc]: LC = 1575 m, LR = 180 m, A = 4900 m2, Lp = 350 m; Sverak 2.74 ohm, Ki = 2.45,
-    # Km = 0.76, GPR = 5228 V (= 1908 A x 2.74 ohm).
+    # Annex B Ex. 4: LC = 1575 m, LR = 180 m, A = 4900 m2, Lp = 350 m [mem]; Sverak 2.74 ohm, Ki = 2.45,
+    # Km = 0.76, GPR = 5228 V (= 1908 A x 2.74 ohm) [doc].
     c = _closed(l_shape_design())
     q = c.layout
     assert (q.lc_m, q.lr_total_m, q.area_m2, q.perimeter_m) == pytest.approx((1575.0, 180.0, 4900.0, 350.0))

@@ -81,7 +81,7 @@ def test_floating_fence_sits_between_remote_earth_and_the_gpr_and_touches_less(b
 
 def test_fence_touch_is_the_fence_potential_minus_the_surface_at_reach(floating):
     # Definition of touch voltage (IEEE Std 80, definitions [mem]): metal potential minus the
-    # potential where the person stands; the reach is 1 m (common practice, shared REFERENCES.md).
+    # potential where the person stands; the reach is 1 m (common practice).
     c = _check(floating, "fence")
     x, y = c.location
     lo, hi = -1.5, 13.5

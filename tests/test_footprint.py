@@ -13,7 +13,7 @@ def plan(grids):
 
 def test_square_grid():
     fp = compute_footprint(plan([GridSpec("g", 0, 0, 70, 70, 11, 11, 0.5, 0.01)]))
-    assert fp.area_m2 == pytest.approx(4900.0)  # Annex B Ex. 1: A = 4900 m2 [doc]
+    assert fp.area_m2 == pytest.approx(4900.0)  # Annex B Ex. 1: A = 4900 m2 [mem]
     assert fp.perimeter_m == pytest.approx(280.0)
     assert fp.max_distance_m == pytest.approx(70 * np.sqrt(2))
 

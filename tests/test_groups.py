@@ -28,10 +28,11 @@ def sunde_mutual(rho, length, spacing):
     """Mutual resistance of two parallel driven rods of length L at spacing D in a uniform half-space,
     each with uniform current, potential averaged over the other rod:
     R12 = rho/(2 pi L) [asinh(2L/D) - sqrt(1 + (D/2L)^2) + D/(2L)].
-    [calc]: derived here from the closed-form double integral of 1/R over two parallel lines
-    (DESIGN.md, parallel segments) applied to each rod with its surface image. Sunde (1968) and
-    Tagg (1964) give closed forms for two rods [mem, not checked against the books]. Far apart it
-    tends to the point-source value rho/(2 pi D) (textbook result, shared REFERENCES.md)."""
+    [calc]: closed form derived here from the double integral of 1/R over two parallel lines
+    (parallel filaments, F. W. Grover, Inductance Calculations, 1946 [mem]) applied to each rod with
+    its surface image. Sunde (1968) and Tagg (1964) give closed forms for two rods [mem]; they were
+    not checked against the books. Far apart it tends to the point-source value rho/(2 pi D)
+    (textbook result: point source on a half-space, Sunde 1968 [mem])."""
     q = spacing / (2 * length)
     return rho / (2 * np.pi * length) * (np.arcsinh(1 / q) - np.sqrt(1 + q * q) + q)
 
@@ -48,7 +49,7 @@ def test_floating_rod_potential_against_sunde_mutual_resistance(spacing, rtol):
 
 def test_far_floating_rod_tends_to_point_source_potential_and_zero():
     # Far away a driven electrode looks like a point source on the surface of a uniform
-    # half-space: V = rho I / (2 pi r) (Sunde 1968; design notes), which tends to 0.
+    # half-space: V = rho I / (2 pi r) (Sunde 1968 [mem]), which tends to 0.
     values = []
     for r in (50.0, 200.0):
         _, res = solved([rod("A", 0, 0)], [MetalGroup("B", False, (rod("B", r, 0),))], seg_len=1.0)
@@ -137,7 +138,7 @@ def test_floating_ring_around_a_small_electrode_takes_the_potential_of_a_point_s
 
 def test_floating_rod_far_from_a_grid_takes_the_point_source_potential():
     # Far from a 10 m grid its field is that of a point source on the surface of the half-space,
-    # V = rho I / (2 pi r) (Sunde 1968; design notes). Tolerance 1 %: at r = 60 m the grid's
+    # V = rho I / (2 pi r) (Sunde 1968 [mem]). Tolerance 1 %: at r = 60 m the grid's
     # size and the rod's 2 m length change the potential by less than (5/60)^2.
     grid = GridSpec("G", 0, 0, 10, 10, 3, 3, 0.5, 0.01).conductors()
     r = 60.0

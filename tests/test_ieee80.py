@@ -14,8 +14,8 @@ from groundcalc.safety.ieee80 import (
 
 
 def test_cs_annex_b():
-    # IEEE Std 80-2000 Annex B: rho = 400, rho_s = 2500, h_s = 0.102 m -> Cs = 0.74
-    # (unrounded 0.7429) [mem/calc, REFERENCES.md], Eq. (27).
+    # IEEE Std 80-2000 Annex B: rho = 400 [doc], rho_s = 2500, h_s = 0.102 m [mem] -> Cs = 0.74 [mem]
+    # (unrounded 0.7429 [calc] from Eq. (27)).
     cs = surface_layer_factor(400.0, 2500.0, 0.102)
     assert cs == pytest.approx(0.7429, abs=5e-5)
     assert round(cs, 2) == 0.74
@@ -24,13 +24,14 @@ def test_cs_annex_b():
 def test_tolerable_touch_annex_b_70kg():
     # IEEE Std 80-2000 Annex B: E_touch70 = 838.2 V with Cs = 0.74 [doc]; Eq. (33).
     assert touch_limit_v(0.74, 2500.0, 0.5, 70) == pytest.approx(838.2, abs=0.05)
-    # With the unrounded Cs: 840.5 V [calc, REFERENCES.md].
+    # With the unrounded Cs: 840.5 V [calc] from Eq. (33).
     cs = surface_layer_factor(400.0, 2500.0, 0.102)
     assert touch_limit_v(cs, 2500.0, 0.5, 70) == pytest.approx(840.5, abs=0.1)
 
 
 def test_tolerable_step_annex_b_70kg():
-    # IEEE Std 80-2000 Annex B: E_step70 = 2686.6 V with Cs = 0.74 [mem/calc]; Eq. (30).
+    # IEEE Std 80-2000 Annex B: E_step70 = 2686.6 V with Cs = 0.74 [mem]; Eq. (30).
+    # With the unrounded Cs: 2696.1 V [calc] from Eq. (30).
     assert step_limit_v(0.74, 2500.0, 0.5, 70) == pytest.approx(2686.6, abs=0.1)
     cs = surface_layer_factor(400.0, 2500.0, 0.102)
     assert step_limit_v(cs, 2500.0, 0.5, 70) == pytest.approx(2696.1, abs=0.1)
@@ -64,14 +65,14 @@ def test_decrement_factor_no_dc_offset():
 
 
 def test_grid_current_annex_b():
-    # Annex B: 3I0 = 3180 A, Sf = 0.6, Df = 1 -> I_G = 1908 A [doc].
+    # Annex B: 3I0 = 3180 A, Sf = 0.6, Df = 1 [mem] -> I_G = 1908 A [doc].
     assert grid_current_a(3180.0, 0.6, 1.0) == pytest.approx(1908.0)
     assert math.isclose(grid_current_a(1000.0, 0.5, 1.1), 550.0)
 
 
 # ---------------------------------------------------------------------------
 # Grid resistance, mesh and step voltages: IEEE Std 80-2000 Annex B Examples 1 to 4.
-# Common data (shared/REFERENCES.md): rho = 400 ohm*m, h = 0.5 m, d = 0.01 m, D = 7 m [doc],
+# Common data (docs/references.md): rho = 400 ohm*m, h = 0.5 m, d = 0.01 m, D = 7 m [doc],
 # I_G = 1908 A [doc]. The standard rounds Km and Ki before Em and Es; with its rounded
 # intermediates our Eqs. (80) and (92) must reproduce its Em and Es to the printed digit.
 # ---------------------------------------------------------------------------
@@ -95,14 +96,14 @@ RHO, H, DIAM, SPACING, IG = 400.0, 0.5, 0.01, 7.0, 1908.0
 
 
 def test_sverak_example_1():
-    # Annex B Ex. 1: LT = LC = 1540 m, A = 4900 m2 -> Rg = 2.78 ohm [mem], GPR = 5304 V [mem]; Eq. (52).
+    # Annex B Ex. 1: LT = LC = 1540 m, A = 4900 m2 [mem] -> Rg = 2.78 ohm [mem], GPR = 5304 V [mem]; Eq. (52).
     rg = sverak_resistance(RHO, 1540.0, 4900.0, H)
     assert rg == pytest.approx(2.78, abs=0.005)
     assert round(rg, 2) * IG == pytest.approx(5304.0, abs=1.0)  # the standard multiplies the rounded Rg
 
 
 def test_sverak_example_2():
-    # Annex B Ex. 2: LT = 1540 + 150 m -> Rg = 2.75 ohm [mem/calc], GPR = 5247 V [calc]; Eq. (52).
+    # Annex B Ex. 2: LT = 1540 + 150 m -> Rg = 2.75 ohm [mem], GPR = 5247 V [calc] (I_G x 2.75 ohm); Eq. (52).
     rg = sverak_resistance(RHO, 1690.0, 4900.0, H)
     assert rg == pytest.approx(2.7526, abs=1e-4)
     assert round(rg, 2) * IG == pytest.approx(5247.0, abs=1.0)
@@ -110,12 +111,12 @@ def test_sverak_example_2():
 
 def test_sverak_example_3():
     # Annex B Ex. 3: 63 m x 84 m, LC = 10 x 84 + 13 x 63 = 1659 m, 38 rods of 10 m (LR = 380 m),
-    # A = 5292 m2 -> Rg = 2.62 ohm [mem/calc]; Eq. (52).
+    # A = 5292 m2 -> Rg = 2.62 ohm [mem]; Eq. (52).
     assert sverak_resistance(RHO, 1659.0 + 380.0, 5292.0, H) == pytest.approx(2.62, abs=0.005)
 
 
 def test_sverak_example_4():
-    # Annex B Ex. 4: L-shape, LC = 1575 m, LR = 180 m, A = 4900 m2 -> Rg = 2.74 ohm, GPR = 5228 V [doc].
+    # Annex B Ex. 4: L-shape, LC = 1575 m, LR = 180 m, A = 4900 m2 [mem] -> Rg = 2.74 ohm, GPR = 5228 V [doc].
     rg = sverak_resistance(RHO, 1575.0 + 180.0, 4900.0, H)
     assert rg == pytest.approx(2.74, abs=0.005)
     assert round(rg, 2) * IG == pytest.approx(5228.0, abs=1.0)
@@ -131,7 +132,7 @@ def test_laurent_niemann_is_the_deep_limit_of_sverak():
 
 
 def test_example_1_n_km_ki_em():
-    # Annex B Ex. 1: square, n = na = 2 LC / Lp = 11; Ki = 2.272; Km = 0.89 [mem] with Kii = 1/(2n)^(2/n)
+    # Annex B Ex. 1: square, n = na = 2 LC / Lp = 11 [mem]; Ki = 2.272 [mem]; Km = 0.89 [mem] with Kii = 1/(2n)^(2/n)
     # (no rods) and Kh = sqrt(1.5); Em = 1002.1 V [mem]. Eqs. (80)-(89).
     n, (na, nb, nc, nd) = effective_parallel_count(1540.0, 280.0, 4900.0, 70.0, 70.0, math.hypot(70, 70))
     assert (na, nb, nc, nd) == pytest.approx((11.0, 1.0, 1.0, 1.0))
@@ -169,8 +170,8 @@ def test_example_2_rods_off_the_perimeter_count_plainly():
 
 def test_example_3_rectangle():
     # Annex B Ex. 3: 63 m x 84 m, LC = 1659 m, Lp = 294 m: na = 11.29, nb = 1.005 (rectangle: nc = nd = 1),
-    # Ki = 2.32 [doc/mem], Km = 0.77 [mem], Em = 595.8 V [mem]. The standard's rounded intermediates move Em
-    # by about 0.5 % (REFERENCES.md), so Em is checked to 1 %.
+    # Ki = 2.32 [mem], Km = 0.77 [mem], Em = 595.8 V [mem]. The standard's rounded intermediates move Em
+    # by about 0.5 % [calc], so Em is checked to 1 %.
     n, (na, nb, nc, nd) = effective_parallel_count(1659.0, 294.0, 5292.0, 84.0, 63.0, math.hypot(84, 63))
     assert na == pytest.approx(2 * 1659 / 294)
     assert nb == pytest.approx(math.sqrt(294 / (4 * math.sqrt(5292))))
@@ -184,7 +185,7 @@ def test_example_3_rectangle():
 
 
 def test_example_4_l_shape():
-    # Annex B Ex. 4: L-shape inside 70 m x 105 m, LC = 1575 m, Lp = 350 m, A = 4900 m2 [doc]:
+    # Annex B Ex. 4: L-shape inside 70 m x 105 m, LC = 1575 m, Lp = 350 m, A = 4900 m2 [mem]:
     # nd = 1 for an L-shape (Dm = sqrt(Lx^2 + Ly^2)); n from na nb nc; Ki = 2.45, Km = 0.76 [doc].
     n, (na, nb, nc, nd) = effective_parallel_count(1575.0, 350.0, 4900.0, 70.0, 105.0, math.hypot(70, 105))
     assert na == pytest.approx(9.0)

@@ -10,7 +10,7 @@ from groundcalc.safety.materials import MATERIALS, kf_constant, material, requir
 @pytest.mark.parametrize(
     "name,kf",
     # Kf column of IEEE Std 80-2000 Table 2 (Ta = 40 degC, Tm = fusing temperature) [mem]; recovered from the
-    # Table 1 constants [mem] to within 0.01 (shared/REFERENCES.md) through Eq. (42).
+    # Table 1 constants [mem] to within 0.01 [calc] through Eq. (42) (docs/references.md).
     [
         ("annealed copper", 7.00),
         ("hard-drawn copper", 7.06),

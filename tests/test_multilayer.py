@@ -54,7 +54,7 @@ def _points(n=300, seed=3, depth=8.0):
 
 def test_point_potential_of_two_layers_equals_the_image_series():
     # Layer recursion (Sunde 1968 sec. 2.6) with N = 2 against the two-layer image series
-    # (Tagg 1964 ch. 5; DESIGN.md), observer and source in every layer pair.
+    # (Tagg 1964 ch. 5; Sunde 1968 sec. 2.5), observer and source in every layer pair.
     p, q = _points()
     for rho1, rho2, h in [(300.0, 60.0, 2.0), (50.0, 900.0, 1.2)]:
         ref = twolayer.point_potential(p, q, Soil("two-layer", rho1, h, rho2))
@@ -63,6 +63,8 @@ def test_point_potential_of_two_layers_equals_the_image_series():
 
 
 def test_point_potential_limits_of_three_layers():
+    # Physical limits, no outside value: equal layers are uniform soil; a layer with the resistivity of
+    # the one below merges with it (two layers); a vanishing middle layer is a first-order perturbation.
     p, q = _points()
     uni = twolayer.point_potential(p, q, Soil("uniform", 120.0))
     assert np.abs(point_potential(p, q, Profile((120.0,) * 3, (1.5, 4.0))) / uni - 1).max() < 1e-9
@@ -104,7 +106,8 @@ def test_equal_resistivities_give_uniform_soil():
     ],
 )
 def test_three_layers_reduce_to_the_two_layer_image_series(layers, two, relabel):
-    # Matrix entries and grid resistance against the two-layer image series (DESIGN.md) to 1e-6.
+    # Matrix entries and grid resistance against the two-layer image series (Tagg 1964 ch. 5;
+    # Sunde 1968 sec. 2.5) to 1e-6.
     dz, dr, _ = _compare(multilayer(layers), Soil("two-layer", two[0], two[1], two[2]), relabel)
     assert dz < 1e-6 and abs(dr) < 1e-6
 
@@ -137,7 +140,8 @@ def test_surface_potential_of_three_layers_with_rho3_equal_rho2():
 
 
 def test_thin_middle_layer_tends_to_two_layers():
-    # A middle layer of vanishing thickness changes the resistance in proportion to its thickness.
+    # A middle layer of vanishing thickness changes the resistance in proportion to its thickness
+    # (first-order perturbation in the thickness; a limit check, no outside value).
     two = Soil("two-layer", 300.0, 2.0, 60.0)
     changes = []
     for th in (0.2, 0.04):

@@ -417,7 +417,7 @@ def test_validation_is_idempotent():
 def test_decrement_factor_tends_to_sqrt3_for_a_long_time_constant():
     # IEEE Std 80-2000 Eq. (79): as Ta/tf -> infinity, (Ta/tf)(1 - exp(-2 tf/Ta)) -> 2, so Df -> sqrt(3)
     assert decrement_factor(1e20, 0.5, 60.0) == pytest.approx(math.sqrt(3.0), rel=1e-12)
-    # Table 10 check value [calc, REFERENCES.md]: X/R 40, tf = 0.05 s, 60 Hz -> 1.515
+    # Table 10 check value [calc] from Eq. (79), matching Table 10 from memory: X/R 40, tf = 0.05 s, 60 Hz -> 1.515
     assert decrement_factor(40.0, 0.05, 60.0) == pytest.approx(1.515, abs=5e-4)
 
 

@@ -80,7 +80,7 @@ def test_grid_generator_counts():
     g = GridSpec("g", 0, 0, 70, 70, 11, 11, 0.5, 0.01)
     conds = g.conductors()
     assert len(conds) == 22
-    assert sum(c.length_m for c in conds) == pytest.approx(1540.0)  # Annex B Ex. 1: LC = 1540 m [doc]
+    assert sum(c.length_m for c in conds) == pytest.approx(1540.0)  # Annex B Ex. 1: LC = 1540 m [mem]
     s = segment_conductors(conds, 1.0, grading=False).segments
     assert len(s) == 1540
     graded = segment_conductors(conds, 1.0).segments

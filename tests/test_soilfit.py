@@ -11,7 +11,7 @@ SPACINGS = np.array([1, 2, 3, 5, 7.5, 10, 15, 20, 30, 50.0])
 
 def test_two_layer_series_reference_points():
     # Two-layer Wenner series (IEEE Std 81; Tagg 1964), check points recomputed from the published
-    # series [calc, shared/REFERENCES.md], H = 6.1 m; the values are printed to 2 decimals.
+    # series [calc] (docs/references.md), H = 6.1 m; the values are printed to 2 decimals.
     assert two_layer_wenner([10, 20, 50], 100, 300, 6.1) == pytest.approx([149.22, 203.58, 264.09], abs=0.006)
     assert two_layer_wenner([10, 20], 300, 100, 6.1) == pytest.approx([191.52, 123.86], abs=0.006)
 
@@ -36,7 +36,7 @@ def test_apparent_resistivity_surface_pins_and_pin_depth():
 
 @pytest.mark.parametrize("model", [(100, 300, 6.1), (300, 100, 6.1), (50, 1000, 2.0), (800, 40, 1.5)])
 def test_fit_recovers_synthetic_model_within_2_percent(model):
-    # Synthetic readings from the two-layer Wenner series (IEEE Std 81; REFERENCES.md) are fitted
+    # Synthetic readings from the two-layer Wenner series (IEEE Std 81-2012; Tagg 1964) are fitted
     # back to rho1, rho2, H within 2 %.
     r1, r2, h = model
     fit = fit_soil(WennerReadings(tuple(SPACINGS), tuple(two_layer_wenner(SPACINGS, r1, r2, h))))

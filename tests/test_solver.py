@@ -25,13 +25,13 @@ def dwight_rod(rho, length, a):
 
 def test_rod_one_segment_reproduces_dwight_exactly():
     # With one segment the Galerkin self term plus its surface image is Dwight's formula
-    # up to terms of order a/L (design notes; Dwight 1936).
+    # up to terms of order a/L (closed form derived here [calc]; Dwight 1936).
     rod = Rod("r", 0, 0, 0, 3.0, 0.016).as_conductor()
     assert resistance([rod], 100.0, 3.0, grading=False) == pytest.approx(dwight_rod(100, 3, 0.008), rel=1e-3)
 
 
 def test_rod_converges_within_1p5_percent_of_dwight():
-    # REFERENCES.md: rho = 100 ohm*m, L = 3 m, a = 8 mm -> 33.49 ohm [calc from Dwight 1936];
+    # Dwight 1936: rho = 100 ohm*m, L = 3 m, a = 8 mm -> 33.49 ohm [calc] from Dwight's formula;
     # a converged thin-wire solution sits about 1 % below (common practice: current crowds at the
     # rod's free end), so 1.5 % allows for the coarse segmentation here.
     rod = Rod("r", 0, 0, 0, 3.0, 0.016).as_conductor()
@@ -39,11 +39,12 @@ def test_rod_converges_within_1p5_percent_of_dwight():
     assert ref == pytest.approx(33.49, abs=0.01)
     r = resistance([rod], 100.0, 0.25)
     assert r == pytest.approx(ref, rel=0.015)
-    assert r < ref  # Galerkin resistance is an upper bound that decreases on refinement
+    assert r < ref  # Galerkin upper bound decreasing on refinement (Harrington 1968 [mem])
 
 
 def test_refinement_decreases_rod_resistance_monotonically():
-    # Galerkin (variational) property: refining never raises the resistance (design notes).
+    # Galerkin (variational) property: refining never raises the resistance (R. F. Harrington,
+    # Field Computation by Moment Methods, 1968 [mem]).
     # Equal segments: graded runs of different target lengths are not refinements of one another.
     rod = Rod("r", 0, 0, 0, 3.0, 0.016).as_conductor()
     values = [resistance([rod], 100.0, s, grading=False) for s in (3.0, 1.5, 1.0, 0.5, 0.25)]
@@ -53,7 +54,7 @@ def test_refinement_decreases_rod_resistance_monotonically():
 def test_horizontal_wire_within_3_percent_of_sunde():
     # Sunde, Earth Conduction Effects in Transmission Systems (1968); Dwight (1936):
     # R = rho / (pi l) [ln(2l / sqrt(2 a h)) - 1]; rho = 100, l = 10 m, h = 0.5 m, a = 5 mm
-    # -> 14.79 ohm [calc, REFERENCES.md].
+    # -> 14.79 ohm [calc] from that formula.
     ref = 100 / (np.pi * 10) * (np.log(20 / np.sqrt(2 * 0.005 * 0.5)) - 1)
     assert ref == pytest.approx(14.79, abs=0.01)
     wire = Conductor("w", (0, 0, 0.5), (10, 0, 0.5), 0.01)
@@ -66,8 +67,8 @@ def annex_b1_conductors():
 
 
 def test_annex_b1_resistance_below_sverak_and_within_6_percent(annex_b1_conductors):
-    # IEEE Std 80-2000 Annex B, Example 1: Sverak (Eq. 52) gives Rg = 2.78 ohm [mem; 2.779
-    # recomputed from Eq. 52 with A = 4900 m2, LT = 1540 m, h = 0.5 m, rho = 400].
+    # IEEE Std 80-2000 Annex B, Example 1: Sverak (Eq. 52) gives Rg = 2.78 ohm [mem]; 2.776
+    # [calc] from Eq. 52 with A = 4900 m2, LT = 1540 m, h = 0.5 m, rho = 400.
     # Sverak's formula is an upper estimate for such grids (common practice): the method of moments
     # must lie below 2.78 and within 6 % of it.
     a, lt, h, rho = 4900.0, 1540.0, 0.5, 400.0
@@ -86,7 +87,8 @@ def test_annex_b1_halving_segment_length_changes_resistance_below_half_percent(a
 
 
 def test_matrix_is_symmetric_positive_definite():
-    # Galerkin testing of a positive kernel gives an SPD matrix (design notes).
+    # Galerkin testing of a positive kernel gives a symmetric positive-definite matrix
+    # (Harrington 1968 [mem]).
     seg = segment_conductors(annex_b_grid(3)[0].conductors(), 5.0)
     z = assemble(seg.segments, uniform_greens(Soil("uniform", 100.0)))
     full = np.triu(z) + np.triu(z, 1).T

@@ -110,7 +110,7 @@ def test_reciprocity_of_point_potential_and_matrix(k):
 def test_rod_in_upper_layer_against_tagg():
     # Tagg, Earth Resistances (1964): rod of length L from the surface wholly in the upper layer,
     # R = rho1/(2 pi L) [ln(4L/a) - 1 + sum_n K^n ln((2nH + L)/(2nH - L))];
-    # L = 3 m, a = 8 mm, rho1 = 100, rho2 = 300, H = 5 m -> 35.75 ohm [calc, REFERENCES.md].
+    # L = 3 m, a = 8 mm, rho1 = 100, rho2 = 300, H = 5 m -> 35.75 ohm [calc] from that formula.
     # Tolerance 2 %: constant-current segments converge slowly at a rod's free end, where the
     # current crowds (common practice).
     k, h, length, a = 0.5, 5.0, 3.0, 0.008
@@ -127,7 +127,7 @@ def test_rod_in_upper_layer_against_tagg():
 
 
 def _brute_images(soil, lo, ls, n_max):
-    """Every image of the three point-source formulas (DESIGN.md / Tagg 1964), written out."""
+    """Every image of the three point-source formulas (Tagg 1964 ch. 5; Sunde 1968 sec. 2.5), written out."""
     r1, r2, h, k = soil.rho1_ohm_m, soil.rho2_ohm_m, soil.thickness_m, soil.reflection_k
     out = []
     if (lo, ls) == (0, 0):

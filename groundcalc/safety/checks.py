@@ -30,7 +30,7 @@ class Check:
     value_v : float
         Computed voltage. [V]
     limit_v : float
-        Tolerable voltage (IEEE Std 80-2013 Eqs. 32-33 or 29-30, or user-defined). [V]
+        Tolerable voltage (IEEE Std 80-2000 Eqs. 32-33 or 29-30, or user-defined). [V]
     location : tuple
         (x, y) of the worst point, or ((x, y), (x, y)) for a step. [m]
     """

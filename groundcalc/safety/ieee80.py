@@ -253,7 +253,7 @@ def schwarz_k1_k2(depth_m: float, area_m2: float, length_to_width: float) -> tup
     IEEE Std 80-2000, clause 14.3, Figure 25 (curves A, B, C) as straight
     lines: h = 0: k1 = -0.04x + 1.41, k2 = 0.15x + 5.50; h = sqrt(A)/10:
     k1 = -0.05x + 1.20, k2 = 0.10x + 4.68; h = sqrt(A)/6: k1 = -0.05x + 1.13,
-    k2 = -0.05x + 4.40 (from memory, shared/REFERENCES.md).
+    k2 = -0.05x + 4.40 (from memory [mem]; listed in docs/references.md).
     """
     x = length_to_width
     s = math.sqrt(area_m2)
@@ -313,8 +313,8 @@ def schwarz_resistance(
 
     References
     ----------
-    IEEE Std 80-2000, clause 14.3, Eqs. (53) to (56) (from memory,
-    shared/REFERENCES.md); S. J. Schwarz, "Analytical expressions for the
+    IEEE Std 80-2000, clause 14.3, Eqs. (53) to (56) (from memory [mem];
+    listed in docs/references.md); S. J. Schwarz, "Analytical expressions for the
     resistance of grounding systems", AIEE Trans. 73, 1954.
     """
     k1, k2, _ = schwarz_k1_k2(depth_m, area_m2, length_to_width)
@@ -406,7 +406,7 @@ def mesh_factor(spacing_m: float, depth_m: float, diameter_m: float, n: float, r
     References
     ----------
     IEEE Std 80-2000, clause 16.5.1, Eqs. (81) to (83) (from memory of the
-    numbers, shared/REFERENCES.md).
+    numbers [mem]; listed in docs/references.md).
     """
     d, h, dd = spacing_m, depth_m, diameter_m
     kii = 1.0 if rods_on_perimeter else 1.0 / (2.0 * n) ** (2.0 / n)

@@ -58,7 +58,7 @@ class Material:
     density_kg_m3: float
 
 
-#: IEEE Std 80-2013 Table 1 (from memory), densities common practice.
+#: IEEE Std 80-2000 Table 1 (from memory), densities common practice.
 MATERIALS: dict[str, Material] = {
     m.name: m
     for m in (

@@ -25,8 +25,8 @@ References
    two-layer soil).
 .. [2] E. D. Sunde, *Earth Conduction Effects in Transmission Systems*, Dover,
    1968, sec. 2.5.
-.. [3] IEEE Std 80-2013, Annex E (two-layer soil models), for the
-   definition of K.
+.. [3] IEEE Std 80-2000, clause 13 (two-layer soil model), for the
+   definition of K (from memory; IEEE Std 80-2013 treats it in Annex E).
 """
 
 from __future__ import annotations

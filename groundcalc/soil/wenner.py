@@ -48,7 +48,8 @@ def wenner_apparent_resistivity(
     References
     ----------
     IEEE Std 81-2012, clause 8.2.3.2 (Wenner arrangement), from memory of
-    the clause number; the same expression is IEEE Std 80-2013 Eq. (46).
+    the clause number; the same expression is in IEEE Std 80-2000, clause 13
+    (Eq. (46) in the 2013 edition; both from memory).
     """
     a = np.asarray(spacing_m, dtype=float)
     r = np.asarray(resistance_ohm, dtype=float)

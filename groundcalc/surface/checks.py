@@ -4,7 +4,7 @@ All values are per volt of GPR: the model is linear in the fault current.
 Touch voltage is the difference between the potential of the metal touched
 and the surface potential where the person stands, ``|V_metal - V_s|``
 (a floating fence can sit below the soil around it). Step voltage is the
-largest potential difference over 1 m (IEEE Std 80-2013, clause 8.3).
+largest potential difference over 1 m (IEEE Std 80-2000, clause 8.3).
 
 - Fences: at the reach distance on both sides of every run, and round its
   ends (common practice: a person touches a fence from about 1 m).
@@ -48,7 +48,7 @@ AREA_SAMPLE_M = 0.5
 HINGE_CLEARANCE_M = 0.3
 #: Points along a profile.
 PROFILE_POINTS = 201
-#: Step length (IEEE Std 80-2013, clause 8.3). [m]
+#: Step length (IEEE Std 80-2000, clause 8.3). [m]
 STEP_M = 1.0
 
 Potential = Callable[[np.ndarray], np.ndarray]

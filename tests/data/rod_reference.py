@@ -188,7 +188,7 @@ def extrapolate(levels: list[int], values: list[float]) -> tuple[float, float]:
 CASES = {
     "uniform": {"length_m": 3.0, "radius_m": 0.008, "soil": (100.0,)},
     "two-layer": {"length_m": 3.0, "radius_m": 0.008, "soil": (300.0, 60.0, 1.5)},
-    # wholly inside the upper layer: the case of Tagg's image-series formula (shared/REFERENCES.md)
+    # wholly inside the upper layer: the case of Tagg's image-series formula (G. F. Tagg, Earth Resistances, 1964)
     "upper-layer": {"length_m": 3.0, "radius_m": 0.008, "soil": (100.0, 300.0, 5.0)},
 }
 
