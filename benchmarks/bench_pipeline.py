@@ -79,10 +79,10 @@ def main() -> None:
     t = time.perf_counter()
     lines = plan_lines(design)
     area = TouchArea(compute_footprint(lines), lines)
-    raster = build_raster(sol, 1.0, area, design.settings.raster_spacing_m, design.settings.margin_m)
+    raster = build_raster(sol, area, design.settings.raster_spacing_m, design.settings.margin_m)
     times["surface raster"] = time.perf_counter() - t
     t = time.perf_counter()
-    find_max_touch(raster, 1.0, lambda xy: surface_potential(xy, sol, 1.0))
+    find_max_touch(raster, lambda xy: surface_potential(xy, sol, 1.0))
     find_max_step(raster, lambda xy: surface_potential(xy, sol, 1.0))
     times["touch/step search"] = time.perf_counter() - t
 

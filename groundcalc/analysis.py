@@ -129,13 +129,13 @@ def surface_field(design: Design, geometry: GeometryResult) -> FieldResult:
                 "note",
             )
         )
-    raster = build_raster(sol, 1.0, area, spacing, design.settings.margin_m)
+    raster = build_raster(sol, area, spacing, design.settings.margin_m)
 
     def potential(xy: np.ndarray) -> np.ndarray:
         return surface_potential(xy, sol, 1.0)
 
     log.info("searching for the largest touch and step voltages")
-    touch = find_max_touch(raster, 1.0, potential)
+    touch = find_max_touch(raster, potential)
     step = find_max_step(raster, potential)
     return FieldResult(raster, touch, step, tuple(notices), time.perf_counter() - t0)
 
@@ -167,12 +167,12 @@ class Results:
     @property
     def max_touch_v(self) -> float:
         """Largest touch voltage. [V]"""
-        return self.field.touch.voltage_v * self.gpr_v
+        return self.field.touch.voltage_per_gpr * self.gpr_v
 
     @property
     def max_step_v(self) -> float:
         """Largest step voltage. [V]"""
-        return self.field.step.voltage_v * self.gpr_v
+        return self.field.step.voltage_per_gpr * self.gpr_v
 
 
 def resolve_soil(design: Design) -> tuple[Design, SoilFit | None]:
@@ -209,7 +209,9 @@ def evaluate(
     gpr = ig * geometry.solution.resistance_ohm
     limits = tolerable_limits(design.soil, design.surface_layer, f)
     sizing = conductor_sizing(design, df)
-    result_assessment = assess(limits, field_result.touch.voltage_v * gpr, field_result.step.voltage_v * gpr, sizing.ok)
+    result_assessment = assess(
+        limits, field_result.touch.voltage_per_gpr * gpr, field_result.step.voltage_per_gpr * gpr, sizing.ok
+    )
     metal = None
     if design.metal is not None:
         from .metal_analysis import metal_checks
@@ -307,7 +309,7 @@ def discretisation_estimate(design: Design, geometry: GeometryResult, field_resu
         seconds += more
     t0 = time.perf_counter()
     r_rel = richardson_error(sol.resistance_ohm, coarse.resistance_ohm, ratio)
-    touch_pu = field_result.touch.voltage_v
+    touch_pu = field_result.touch.voltage_per_gpr
     touch_rel = None
     if touch_pu > 0.0:
         xy = np.array([field_result.touch.location_xy], dtype=float)

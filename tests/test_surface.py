@@ -62,22 +62,22 @@ def small_grid_field():
     sol = solve(seg, uniform_greens(Soil("uniform", 100.0)))
     lines = np.array([[c.start[:2], c.end[:2]] for c in grid.conductors()])
     area = TouchArea(compute_footprint(lines), lines)
-    raster = build_raster(sol, 1.0, area, 0.5, 4.0)
+    raster = build_raster(sol, area, 0.5, 4.0)
     return sol, raster
 
 
 def test_surface_potential_below_gpr_and_positive(small_grid_field):
     # Maximum principle: the surface potential lies between 0 and the GPR (common practice).
     _, raster = small_grid_field
-    assert raster.potential_v.max() < 1.0
-    assert raster.potential_v.min() > 0.0
+    assert raster.potential_per_gpr.max() < 1.0
+    assert raster.potential_per_gpr.min() > 0.0
 
 
 def test_refined_touch_not_below_raster_and_inside_footprint(small_grid_field):
     sol, raster = small_grid_field
     pot = lambda xy: surface_potential(xy, sol, 1.0)  # noqa: E731
-    t = find_max_touch(raster, 1.0, pot)
-    assert t.voltage_v >= t.raster_voltage_v - 1e-12
+    t = find_max_touch(raster, pot)
+    assert t.voltage_per_gpr >= t.raster_voltage_per_gpr - 1e-12
     assert 0 <= t.location_xy[0] <= 20 and 0 <= t.location_xy[1] <= 20
     # the worst touch point of a square grid lies in a corner mesh (IEEE Std 80 clause 16.5, common practice)
     x, y = t.location_xy
@@ -88,15 +88,15 @@ def test_refined_step_beats_brute_force_on_raster(small_grid_field):
     # Brute force: every pair of raster nodes exactly 1 m apart along x or y (spacing 0.5 m); the step
     # is taken over 1 m (common practice, IEEE Std 80 definition of step voltage [mem]).
     sol, raster = small_grid_field
-    v = raster.potential_v
+    v = raster.potential_per_gpr
     brute = max(np.abs(v[:, 2:] - v[:, :-2]).max(), np.abs(v[2:, :] - v[:-2, :]).max())
     pot = lambda xy: surface_potential(xy, sol, 1.0)  # noqa: E731
     s = find_max_step(raster, pot)
-    assert s.voltage_v >= brute - 1e-9
+    assert s.voltage_per_gpr >= brute - 1e-9
     assert np.hypot(s.start_xy[0] - s.end_xy[0], s.start_xy[1] - s.end_xy[1]) == pytest.approx(1.0)
     # the step voltage matches the potentials at its two ends
     ends = pot(np.array([s.start_xy, s.end_xy]))
-    assert ends[0] - ends[1] == pytest.approx(s.voltage_v, rel=1e-9)
+    assert ends[0] - ends[1] == pytest.approx(s.voltage_per_gpr, rel=1e-9)
 
 
 def test_touch_and_step_scale_with_raster_spacing_only_slightly():

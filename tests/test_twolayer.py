@@ -236,6 +236,6 @@ def test_two_layer_surface_between_zero_and_gpr(k):
     # maximum principle (common practice): 0 < V(surface) < GPR, touch and step positive
     d = make_design(grids=[GridSpec("g", 0, 0, 20, 20, 3, 3, 0.5, 0.01)], soil=k_soil(k, 3.0), segment=2.0)
     r = analyse(d)
-    pot = r.field.raster.potential_v
+    pot = r.field.raster.potential_per_gpr
     assert pot.max() < 1.0 and pot.min() > 0.0
     assert 0 < r.max_touch_v < r.gpr_v and r.max_step_v > 0

@@ -111,7 +111,7 @@ def touch_field_v(results) -> np.ndarray:
 
     The raster holds the surface potential per volt of GPR.
     """
-    return results.gpr_v * (1.0 - results.field.raster.potential_v)
+    return results.gpr_v * (1.0 - results.field.raster.potential_per_gpr)
 
 
 def touch_contours(x: np.ndarray, y: np.ndarray, touch_v: np.ndarray, levels: list[float]) -> dict:

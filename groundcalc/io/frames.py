@@ -125,7 +125,7 @@ def raster_frame(results: PipelineResults) -> pd.DataFrame:
     """
     r = results.field.raster
     xx, yy = np.meshgrid(r.x, r.y)
-    pot = r.potential_v * results.gpr_v
+    pot = r.potential_per_gpr * results.gpr_v
     return pd.DataFrame(
         {
             "x_m": xx.ravel(),

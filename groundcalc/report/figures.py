@@ -82,7 +82,7 @@ def plan_figure(results: Results, style, max_height: float = 120 * mm) -> list:
 def map_arrays(results: Results) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Surface potential, touch voltage (NaN outside the touch area) and where touch exceeds its limit. [V]"""
     r = results.field.raster
-    pot = r.potential_v * results.gpr_v
+    pot = r.potential_per_gpr * results.gpr_v
     touch = np.where(r.touch_mask, results.gpr_v - pot, np.nan)
     exceed = r.touch_mask & (results.gpr_v - pot > results.limits.touch_limit_v)
     return pot, touch, exceed

@@ -92,7 +92,11 @@ def solve_per_volt(design: Design) -> PerVolt:
     fld = surface_field(design, geometry)
     sol = geometry.solution
     return PerVolt(
-        sol.resistance_ohm, fld.touch.voltage_v, fld.step.voltage_v, len(sol.segments), time.perf_counter() - t0
+        sol.resistance_ohm,
+        fld.touch.voltage_per_gpr,
+        fld.step.voltage_per_gpr,
+        len(sol.segments),
+        time.perf_counter() - t0,
     )
 
 
@@ -100,8 +104,8 @@ def _per_volt_of(results: Results) -> PerVolt:
     g = results.geometry
     return PerVolt(
         g.solution.resistance_ohm,
-        results.field.touch.voltage_v,
-        results.field.step.voltage_v,
+        results.field.touch.voltage_per_gpr,
+        results.field.step.voltage_per_gpr,
         len(g.solution.segments),
         sum(g.seconds.values()) + results.field.seconds,
     )

@@ -102,14 +102,14 @@ class TouchArea:
 
 @dataclass(frozen=True)
 class Raster:
-    """Surface potential on a regular plan raster.
+    """Surface potential on a regular plan raster, per volt of GPR (the grid at 1 V).
 
     Attributes
     ----------
     x, y : numpy.ndarray
         Raster coordinates. [m]
-    potential_v : numpy.ndarray, shape (len(y), len(x))
-        Surface potential. [V]
+    potential_per_gpr : numpy.ndarray, shape (len(y), len(x))
+        Surface potential per volt of GPR. [V/V]
     touch_mask : numpy.ndarray of bool, shape (len(y), len(x))
         Raster nodes inside the touch area.
     touch_area : TouchArea
@@ -120,7 +120,7 @@ class Raster:
 
     x: np.ndarray
     y: np.ndarray
-    potential_v: np.ndarray
+    potential_per_gpr: np.ndarray
     touch_mask: np.ndarray
     touch_area: TouchArea
     spacing_m: float
@@ -219,19 +219,16 @@ def auto_raster_spacing(extent_m: float, segment_length_m: float | None = None) 
 
 def build_raster(
     solution: Solution,
-    gpr_v: float,
     touch_area: TouchArea,
     spacing_m: float,
     margin_m: float,
 ) -> Raster:
-    """Evaluate the surface potential on a raster over the grid and margin.
+    """Evaluate the surface potential per volt of GPR on a raster over the grid and margin.
 
     Parameters
     ----------
     solution : Solution
         Method-of-moments solution.
-    gpr_v : float
-        Ground potential rise. [V]
     touch_area : TouchArea
         Where touch voltage is assessed.
     spacing_m : float
@@ -254,7 +251,7 @@ def build_raster(
     xx, yy = np.meshgrid(x, y)
     flat = np.column_stack([xx.ravel(), yy.ravel()])
     log.info("surface potential on %d x %d raster (%.2f m)", nx, ny, spacing_m)
-    pot = raster_potential(x, y, solution, gpr_v)
+    pot = raster_potential(x, y, solution, 1.0)
     mask = touch_area.contains(flat).reshape(ny, nx)
     return Raster(x, y, pot, mask, touch_area, spacing_m)
 
@@ -276,31 +273,33 @@ def _local_maxima(values: np.ndarray, mask: np.ndarray, count: int) -> list[tupl
 
 @dataclass(frozen=True)
 class TouchResult:
-    """Largest touch voltage and where it occurs."""
+    """Largest touch voltage per volt of GPR and where it occurs."""
 
-    voltage_v: float
+    voltage_per_gpr: float
     location_xy: tuple[float, float]
-    raster_voltage_v: float
+    raster_voltage_per_gpr: float
 
 
 @dataclass(frozen=True)
 class StepResult:
-    """Largest step voltage and the two foot positions."""
+    """Largest step voltage per volt of GPR and the two foot positions."""
 
-    voltage_v: float
+    voltage_per_gpr: float
     start_xy: tuple[float, float]
     end_xy: tuple[float, float]
-    raster_voltage_v: float
+    raster_voltage_per_gpr: float
 
 
-def find_max_touch(raster: Raster, gpr_v: float, potential: Callable[[np.ndarray], np.ndarray]) -> TouchResult:
-    """Largest touch voltage (GPR minus surface potential) in the touch area.
+def find_max_touch(raster: Raster, potential: Callable[[np.ndarray], np.ndarray]) -> TouchResult:
+    """Largest touch voltage per volt of GPR (1 minus the surface potential per volt) in the touch area.
+
+    ``potential`` gives the surface potential per volt of GPR at plan points.
 
     The raster maximum and the next few local maxima are refined by a
     Nelder-Mead search on the exact surface potential, kept inside the touch
     area.
     """
-    touch = gpr_v - raster.potential_v
+    touch = 1.0 - raster.potential_per_gpr
     if not raster.touch_mask.any():
         raise ValueError("the touch area contains no raster point; use a finer raster spacing")
     cands = _local_maxima(touch, raster.touch_mask, 6)
@@ -312,7 +311,7 @@ def find_max_touch(raster: Raster, gpr_v: float, potential: Callable[[np.ndarray
     def objective(xy: np.ndarray) -> float:
         if not raster.touch_area.contains(xy)[0]:
             return 0.0
-        return -(gpr_v - float(potential(xy[None, :])[0]))
+        return -(1.0 - float(potential(xy[None, :])[0]))
 
     for ci, cj in cands:
         start = np.array([raster.x[cj], raster.y[ci]])
@@ -322,7 +321,7 @@ def find_max_touch(raster: Raster, gpr_v: float, potential: Callable[[np.ndarray
             method="Nelder-Mead",
             options={
                 "xatol": 0.01,
-                "fatol": 1e-4 * max(gpr_v, 1e-9),
+                "fatol": 1e-4,
                 "initial_simplex": [start, start + [0.5 * h, 0.0], start + [0.0, 0.5 * h]],
             },
         )
@@ -337,13 +336,13 @@ def _step_pair(xy: np.ndarray, theta: float) -> np.ndarray:
 
 
 def find_max_step(raster: Raster, potential: Callable[[np.ndarray], np.ndarray]) -> StepResult:
-    """Largest potential difference between surface points 1 m apart.
+    """Largest potential difference per volt of GPR between surface points 1 m apart.
 
     Candidates are local maxima of the raster gradient; each is refined by a
     Nelder-Mead search over the mid point and the direction of the step.
     """
     h = raster.spacing_m
-    gy, gx = np.gradient(raster.potential_v, h)
+    gy, gx = np.gradient(raster.potential_per_gpr, h)
     grad = np.hypot(gx, gy) * STEP_LENGTH_M
     inner = np.zeros_like(grad, dtype=bool)
     inner[1:-1, 1:-1] = True
