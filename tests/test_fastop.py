@@ -93,3 +93,27 @@ def test_grid_interpolation_is_exact_for_polynomials():
     pts = np.random.default_rng(3).uniform([0.0, 0.0], [10.0, 7.0], size=(50, 2))
     want = pts[:, 0] ** 5 - 3 * pts[:, 0] * pts[:, 1] ** 2 + pts[:, 1] ** 4
     assert np.allclose(grid.weights(pts) @ nodal, want, rtol=1e-9, atol=1e-8)
+
+
+@pytest.mark.parametrize("name", list(SOILS))
+def test_whole_run_touch_and_step_within_0p3_percent_of_dense_path(name, monkeypatch):
+    """Solve, surface raster and touch/step search: matrix-free against dense, same design."""
+    from groundcalc.analysis import solve_geometry, surface_field
+    from groundcalc.mom import fastop
+    from groundcalc.surface import potential
+
+    from .conftest import make_design
+
+    soil, _ = SOILS[name]
+    design = make_design(conductors=unequal_grid(40.0, 30.0, 7, 6), soil=soil, segment=2.0, spacing=1.0)
+    geo_exact = solve_geometry(design)
+    field_exact = surface_field(design, geo_exact)
+    monkeypatch.setattr(fastop, "FAST_MIN_SIZE", 0)
+    monkeypatch.setattr(potential, "FAST_POINT_PAIRS", 0)
+    geo_fast = solve_geometry(design)
+    assert geo_fast.solution.fast_operator is not None
+    assert geo_exact.solution.fast_operator is None
+    field_fast = surface_field(design, geo_fast)
+    assert geo_fast.solution.resistance_ohm == pytest.approx(geo_exact.solution.resistance_ohm, rel=5e-4)
+    assert field_fast.touch.voltage_v == pytest.approx(field_exact.touch.voltage_v, rel=3e-3)
+    assert field_fast.step.voltage_v == pytest.approx(field_exact.step.voltage_v, rel=3e-3)

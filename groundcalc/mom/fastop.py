@@ -197,13 +197,42 @@ class FastOperator:
                 raise FastUnavailable(f"no surface plan kernel for layer {lay} at depth {z} m")
             self._surface_kernels[g] = k
         self._matrix_ready = False
+        self.members_all = [np.flatnonzero(self.group == g) for g in range(len(self.keys))]
+        self.tree = cKDTree(op.mid[self.hidx, :2])
+        self._surface_cache: dict = {}
+
+    def _surface_grid(self, pts: np.ndarray) -> _Grid | None:
+        """Plan grid for surface points (kept while later points fall inside it); None if too large."""
+        cache = self._surface_cache
+        grid = cache.get("grid_obj")
+        lo_p, hi_p = pts.min(axis=0), pts.max(axis=0)
+        if grid is not None and np.all(lo_p >= cache["lo"]) and np.all(hi_p <= cache["hi"]):
+            return grid
+        gp = self.gauss[:, :, :2].reshape(-1, 2)
+        lo = np.minimum(gp.min(axis=0), lo_p)
+        hi = np.maximum(gp.max(axis=0), hi_p)
+        if grid is not None:
+            lo, hi = np.minimum(lo, cache["lo"]), np.maximum(hi, cache["hi"])
+        pad = 0.1 * float(np.max(hi - lo))  # room for later points nearby
+        lo, hi = lo - pad, hi + pad
+        grid = _Grid(lo, hi, self.h_grid)
+        if grid.padded[0] * grid.padded[1] > MAX_GRID_NODES:
+            return None
+        cache.clear()
+        cache.update(
+            grid_obj=grid,
+            lo=lo,
+            hi=hi,
+            weights=[grid.weights(self.gauss[m][:, :, :2].reshape(-1, 2)) for m in self.members_all],
+            khat=[grid.kernel_hat(self._surface_kernels[g]) for g in range(len(self.keys))],
+        )
+        return grid
 
     # -- setup of the product ------------------------------------------------------------
 
     def _setup_matrix(self) -> None:
         if self._matrix_ready:
             return
-        op = self.op
         pts = self.gauss[:, :, :2].reshape(-1, 2)
         self.grid = _Grid(pts.min(axis=0), pts.max(axis=0), self.h_grid)
         self.members = [np.flatnonzero(self.group == g) for g in range(len(self.keys))]
@@ -377,22 +406,21 @@ class FastOperator:
         op = self.op
         if pts.shape[0] == 0:
             return np.zeros(0)
-        gp = self.gauss[:, :, :2].reshape(-1, 2)
-        lo = np.minimum(gp.min(axis=0), pts.min(axis=0))
-        hi = np.maximum(gp.max(axis=0), pts.max(axis=0))
-        grid = _Grid(lo, hi, self.h_grid)
-        if grid.padded[0] * grid.padded[1] > MAX_GRID_NODES:
+        grid = self._surface_grid(pts)
+        if grid is None:
             return op.surface_potential(pts, q)
         qh = q[self.hidx]
-        total = None
-        for g in range(len(self.keys)):
-            mem = np.flatnonzero(self.group == g)
-            w = grid.weights(self.gauss[mem][:, :, :2].reshape(-1, 2))
-            hat = grid.kernel_hat(self._surface_kernels[g]) * grid.charge_hat(w.T @ np.repeat(0.5 * qh[mem], 2))
-            total = hat if total is None else total + hat
-        out = grid.weights(pts) @ grid.potential(total) / (4.0 * np.pi)
+        cache = self._surface_cache
+        if cache.get("grid") is not grid or not np.array_equal(cache.get("q"), qh):
+            total = None
+            for g, w in enumerate(cache["weights"]):
+                mem = self.members_all[g]
+                hat = cache["khat"][g] * grid.charge_hat(w.T @ np.repeat(0.5 * qh[mem], 2))
+                total = hat if total is None else total + hat
+            cache["grid"], cache["q"], cache["phi"] = grid, qh.copy(), grid.potential(total)
+        out = grid.weights(pts) @ cache["phi"] / (4.0 * np.pi)
         # near corrections
-        tree = cKDTree(op.mid[self.hidx, :2])
+        tree = self.tree
         near = cKDTree(pts).sparse_distance_matrix(tree, self.r_near, output_type="ndarray")
         pi = near["i"].astype(np.int64)
         sj = near["j"].astype(np.int64)
@@ -407,7 +435,9 @@ class FastOperator:
         for k0 in range(0, pi.size, PAIR_CHUNK):
             a, b = pi[k0 : k0 + PAIR_CHUNK], sj[k0 : k0 + PAIR_CHUNK]
             exact = op.point_pairs(pts[a], self.hidx[b])
-            smooth = self._smooth_pairs(self._surface_kernels, None, self.group[b], pts[a][:, None, :], self.gauss[b][:, :, :2])
+            smooth = self._smooth_pairs(
+                self._surface_kernels, None, self.group[b], pts[a][:, None, :], self.gauss[b][:, :, :2]
+            )
             np.add.at(out, a, (exact - smooth) * qh[b])
         if self.vidx.size:
             out += op.surface_potential(pts, q[self.vidx], self.vidx)
