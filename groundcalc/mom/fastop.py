@@ -251,15 +251,17 @@ class FastOperator:
         ``gj`` the depth groups (``gi`` may be None for surface points).
         """
         out = np.zeros(pa.shape[0])
-        combos = np.unique(np.column_stack([np.zeros_like(gj) if gi is None else gi, gj]), axis=0)
-        for c1, c2 in combos.tolist():
-            sel = np.flatnonzero(((gi == c1) if gi is not None else True) & (gj == c2))
-            k = kernels[c2] if gi is None else kernels[(c1, c2)]
-            acc = np.zeros(sel.size)
+        ng = len(self.keys)
+        code = gj if gi is None else gi * ng + gj
+        present = np.flatnonzero(np.bincount(code, minlength=ng * ng if gi is not None else ng))
+        for c in present.tolist():
+            sel = slice(None) if present.size == 1 else np.flatnonzero(code == c)
+            k = kernels[c] if gi is None else kernels[(c // ng, c % ng)]
+            qa, qb = pa[sel], pb[sel]
+            acc = 0.0
             for s in range(pa.shape[1]):
                 for t in range(pb.shape[1]):
-                    d = np.hypot(pa[sel, s, 0] - pb[sel, t, 0], pa[sel, s, 1] - pb[sel, t, 1])
-                    acc += k(d)
+                    acc = acc + k(np.hypot(qa[:, s, 0] - qb[:, t, 0], qa[:, s, 1] - qb[:, t, 1]))
             out[sel] = acc / (pa.shape[1] * pb.shape[1])
         return out / (4.0 * np.pi)
 

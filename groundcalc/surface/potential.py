@@ -78,7 +78,7 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
 
 
 #: Point-segment pairs from which a matrix-free solution evaluates surface potentials by FFT.
-FAST_POINT_PAIRS = 20_000_000
+FAST_POINT_PAIRS = 2_000_000
 
 
 @dataclass(frozen=True)
