@@ -21,9 +21,11 @@ layout (no lattice needed). It is a precorrected FFT (Phillips and White
   weights. The kernel is smooth on the scale ``sigma`` = 2 segment lengths,
   so a grid of one segment length interpolates it accurately at every
   distance, including the self term.
-* **Near pairs, exact.** For pairs closer than ``(FAR_RATIO + 1)`` segment
-  lengths a sparse correction replaces the grid's two-point value by the
-  entry of the exact operator (closed forms, every image and tail). Beyond
+* **Near pairs, exact.** For pairs closer than ``4 sigma`` plus one segment
+  length (nine lengths; five for surface points, whose split uses
+  ``sigma`` = 1 segment length and a grid of half a length) a sparse
+  correction replaces the grid's two-point value by the entry of the exact
+  operator (closed forms, every image and tail). Beyond
   that distance ``erfc(R / sigma) < 2e-8`` and the two-point Gauss rule is
   as accurate as the corrected mid-point rule of the dense path.
 * **Other segments** (rods and sloping conductors) couple to everything by
@@ -55,7 +57,7 @@ import scipy.sparse
 from scipy.spatial import cKDTree
 
 from ..soil.greens import SURFACE
-from .operator import _G2, FAR_RATIO, Operator
+from .operator import _G2, Operator
 
 __all__ = ["BLOCK_SIZE", "FAST_MIN_SIZE", "FastOperator", "FastUnavailable", "fast_solve"]
 
@@ -67,6 +69,11 @@ FAST_MIN_SIZE = 6000
 ORDER = 6
 #: Smoothing length of the Ewald split, in (longest horizontal) segment lengths.
 SIGMA_RATIO = 2.0
+#: Smoothing length for surface points, in segment lengths.
+POINT_SIGMA_RATIO = 1.0
+#: Pairs farther than this many smoothing lengths (plus a segment length) take the grid value alone:
+#: there erfc(R / sigma) < 2e-8.
+SPLIT_RADII = 4.0
 #: Plan grid spacing, in smoothing lengths.
 GRID_RATIO = 0.5
 #: Radial samples of a plan kernel per grid step (spline interpolation between them).
@@ -189,9 +196,14 @@ class FastOperator:
             raise FastUnavailable("no horizontal segments")
         length = op.length[self.hidx]
         lmax = float(length.max())
-        self.r_near = (FAR_RATIO + 1.0) * lmax
         self.sigma = SIGMA_RATIO * lmax
+        self.r_near = SPLIT_RADII * self.sigma + lmax
         self.h_grid = GRID_RATIO * self.sigma
+        # surface points: a shorter split (the two-point rule on one segment is accurate from
+        # four lengths), so that fewer point-segment pairs need the exact near rule
+        self.sigma_p = POINT_SIGMA_RATIO * lmax
+        self.r_near_p = SPLIT_RADII * self.sigma_p + lmax
+        self.h_grid_p = GRID_RATIO * self.sigma_p
         a, b = seg.a[self.hidx], seg.b[self.hidx]
         self.gauss = np.stack([a + t * (b - a) for t in _G2], axis=1)  # (nh, 2, 3)
         keys = np.column_stack([seg.layer[self.hidx].astype(float), a[:, 2]])
@@ -207,7 +219,7 @@ class FastOperator:
                     raise FastUnavailable(f"no plan kernel for layers {l1}, {l2} at depths {z1}, {z2} m")
                 self._kernels[(g1, g2)] = k
         for g, (lay, z) in enumerate(self.keys):
-            k = op.plan_kernel(SURFACE, 0.0, lay, z, self.sigma)
+            k = op.plan_kernel(SURFACE, 0.0, lay, z, self.sigma_p)
             if k is None:
                 raise FastUnavailable(f"no surface plan kernel for layer {lay} at depth {z} m")
             self._surface_kernels[g] = k
@@ -230,7 +242,7 @@ class FastOperator:
             lo, hi = np.minimum(lo, cache["lo"]), np.maximum(hi, cache["hi"])
         pad = 0.1 * float(np.max(hi - lo))  # room for later points nearby
         lo, hi = lo - pad, hi + pad
-        grid = _Grid(lo, hi, self.h_grid)
+        grid = _Grid(lo, hi, self.h_grid_p)
         if grid.padded[0] * grid.padded[1] > MAX_GRID_NODES:
             return None
         cache.clear()
@@ -438,7 +450,7 @@ class FastOperator:
         out = grid.weights(pts) @ cache["phi"] / (4.0 * np.pi)
         # near corrections
         tree = self.tree
-        near = cKDTree(pts).sparse_distance_matrix(tree, self.r_near, output_type="ndarray")
+        near = cKDTree(pts).sparse_distance_matrix(tree, self.r_near_p, output_type="ndarray")
         pi = near["i"].astype(np.int64)
         sj = near["j"].astype(np.int64)
         # sparse_distance_matrix omits exact zero distances: add coincident pairs
