@@ -63,4 +63,9 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "than the longest Wenner spacing can see are not resolved, yet they can change the "
         "resistance of a large grid a lot.",
     ),
+    (
+        "Large grids: matrix-free solve",
+        "From 6000 segments a matrix-free approximation is solved (tested within 0.05 % on Rg and "
+        "0.3 % on touch and step against the exact path on small grids, not on every layout).",
+    ),
 )
