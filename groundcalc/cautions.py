@@ -76,4 +76,9 @@ CAUTIONS: tuple[tuple[str, str], ...] = (
         "segment length only, not the thin-wire model at rod ends (about 0.1 %), the soil model or "
         "the raster search. Above 1 %: shorten the segments.",
     ),
+    (
+        "Large grids: matrix-free solve",
+        "From 6000 segments a matrix-free approximation is solved (tested within 0.05 % on Rg and "
+        "0.3 % on touch and step against the exact path on small grids, not on every layout).",
+    ),
 )

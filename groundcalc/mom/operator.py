@@ -361,6 +361,74 @@ class Operator:
             gid[gid == g1] = -1
         return _FastGroups(gid, {k: t for k, t in tables.items() if k[0] not in bad and k[1] not in bad})
 
+    # -- smooth plan kernels for fast products (groundcalc.mom.fastop) ---------------------
+
+    def plan_kernel(self, layer_o: int, z_o: float, layer_s: int, z_s: float, sigma_m: float):
+        """Smoothed point kernel between two depths, a function of horizontal distance alone.
+
+        ``k(d) = sum_k w_k erf(R_k / sigma) / R_k`` over every image (the tails
+        from the soil model's radial sums, unsmoothed: they are far), with
+        ``R_k = sqrt(d^2 + dz_k^2)``. It equals the point kernel to
+        ``erfc(R / sigma)`` and is smooth on the scale ``sigma`` (Ewald
+        splitting). ``layer_o`` may be :data:`SURFACE` (``z_o`` = 0).
+
+        Returns
+        -------
+        callable or None
+            ``d -> k(d)`` [ohm*m/m]; ``None`` when the model has no radial sums
+            for these depths.
+        """
+        from scipy.special import erf
+
+        g = self.greens
+        images = g.images(layer_o, layer_s)
+        lead = g.leading_images(layer_o, layer_s)
+        table = None
+        if self._has_rest(layer_o, layer_s):
+            table = g.radial_sums(layer_o, layer_s, z_o, z_s, "far")
+            if table is None:
+                return None
+            used = images[: len(lead)]
+            rest = images[len(lead) :]
+        else:
+            used, rest = images, ()
+        terms = [(img.weight_ohm_m, z_o - img.map_depth(z_s)) for img in used]
+        less = [(img.weight_ohm_m, z_o - img.map_depth(z_s)) for img in rest]
+
+        def smooth(w_dz, d2):
+            out = np.zeros(d2.shape)
+            for w, dz in w_dz:
+                r = np.sqrt(d2 + dz * dz)
+                tiny = r < 1e-9 * sigma_m
+                safe = np.where(tiny, 1.0, r)
+                out += w * np.where(tiny, 2.0 / (sigma_m * np.sqrt(np.pi)), erf(safe / sigma_m) / safe)
+            return out
+
+        def kernel(d: np.ndarray) -> np.ndarray:
+            d = np.asarray(d, dtype=float)
+            d2 = d * d
+            out = smooth(terms, d2)
+            if table is not None:
+                # the table holds the non-leading images unsmoothed: remove their erfc part
+                out += table(d)[0]
+                for w, dz in less:
+                    r = np.sqrt(d2 + dz * dz)
+                    out -= w * (1.0 - erf(r / sigma_m)) / np.maximum(r, 1e-300)
+            return out
+
+        return kernel
+
+    def point_pairs(self, points_xy: np.ndarray, src: np.ndarray) -> np.ndarray:
+        """Potential per unit current at surface points of segments ``src``, pairwise, image by image. [ohm]"""
+        src = np.asarray(src, dtype=np.int64)
+        out = np.zeros(src.size)
+        p3 = np.zeros((src.size, 3))
+        p3[:, :2] = points_xy
+        for layer_s in np.unique(self.segments.layer[src]).tolist():
+            sel = np.flatnonzero(self.segments.layer[src] == layer_s)
+            out[sel] = self._point_general(p3[sel], src[sel], layer_s)
+        return out
+
     # -- matrix entries ------------------------------------------------------------------
 
     def _far_sums(self, dx, dy, zo, zs, eo, es, len_o, len_s, r2, layers_o, layers_s, go, gs, fast) -> np.ndarray:

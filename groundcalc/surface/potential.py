@@ -64,9 +64,21 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
     Evaluated by :meth:`groundcalc.mom.operator.Operator.surface_potential`:
     the corrected mid-point rule for distant horizontal segments, exact
     line-source integrals per image and a Gauss rule on the image tails
-    near them.
+    near them. When the solution was found by the matrix-free operator and
+    the point-segment pairs are many (at least ``FAST_POINT_PAIRS``), its
+    plan-grid FFT evaluation is used instead
+    (:meth:`groundcalc.mom.fastop.FastOperator.surface_potential`).
     """
-    return solution.operator.surface_potential(points_xy, solution.currents_per_gpr * gpr_v)
+    pts = np.asarray(points_xy, dtype=float).reshape(-1, 2)
+    current = solution.currents_per_gpr * gpr_v
+    fast = solution.fast_operator
+    if fast is not None and pts.shape[0] * len(solution.segments) >= FAST_POINT_PAIRS:
+        return fast.surface_potential(pts, current)
+    return solution.operator.surface_potential(pts, current)
+
+
+#: Point-segment pairs from which a matrix-free solution evaluates surface potentials by FFT.
+FAST_POINT_PAIRS = 2_000_000
 
 
 @dataclass(frozen=True)
@@ -197,7 +209,13 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
         # raster row j sits at a = j + y1i - y0i, column i at b = i + x1i - x0i
         out += full[y1i - y0i : y1i - y0i + ny, x1i - x0i : x1i - x0i + nx]
     if direct.size:
-        out += op.surface_potential(flat, current[direct], direct).reshape(ny, nx)
+        fast = solution.fast_operator
+        if fast is not None and flat.shape[0] * direct.size >= FAST_POINT_PAIRS:
+            q = np.zeros(len(seg))
+            q[direct] = current[direct]
+            out += fast.surface_potential(flat, q).reshape(ny, nx)
+        else:
+            out += op.surface_potential(flat, current[direct], direct).reshape(ny, nx)
     return out
 
 
