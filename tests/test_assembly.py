@@ -167,3 +167,18 @@ def test_auto_raster_spacing_is_a_fraction_of_the_segment_length():
     assert surface.auto_raster_spacing(72.0, 1.0) == pytest.approx(1 / 3)
     assert surface.auto_raster_spacing(72.0) == pytest.approx(0.36)
     assert 0.25 <= surface.auto_raster_spacing(1000.0, 2.0) <= 1.0
+
+
+def test_large_assembly_reports_its_progress(monkeypatch, caplog):
+    # Long solves show their progress (row blocks of the matrix) on stderr; the matrix is the same.
+    import logging
+
+    seg = segment_conductors(GRID[0].conductors(), 1.0).segments
+    greens = build_greens(Soil("uniform", 100.0), seg)
+    quiet = assemble(seg, greens)
+    monkeypatch.setattr(assembly, "PROGRESS_MIN_SIZE", 1)
+    monkeypatch.setattr(assembly, "GATHER_ELEMENTS", 4 * len(seg))  # several row blocks
+    with caplog.at_level(logging.INFO, logger="groundcalc"):
+        z = assemble(seg, greens)
+    assert any(r.getMessage().startswith("matrix assembly: ") for r in caplog.records)
+    np.testing.assert_array_equal(z, quiet)

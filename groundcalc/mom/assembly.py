@@ -17,6 +17,7 @@ import numpy as np
 
 from ..geometry.classes import horizontal_mask, segment_classes
 from ..geometry.segments import Segments
+from ..progress import Progress
 from ..soil.greens import GreensFunction
 from .operator import FAR_RATIO, Operator, build_greens
 
@@ -35,6 +36,8 @@ log = logging.getLogger(__name__)
 
 #: Matrix elements computed per block of the fast path (memory and cache bound).
 BLOCK_ELEMENTS = 400_000
+#: Systems at least this large show the progress of their assembly (row blocks) on stderr.
+PROGRESS_MIN_SIZE = 4000
 #: Pairs evaluated per call of the general path.
 GENERAL_CHUNK = 200_000
 
@@ -250,18 +253,21 @@ def assemble(segments: Segments, greens: GreensFunction, stats: AssemblyStats | 
     for k, c in enumerate(big):
         big_id[c.idx] = k
     rows = max(1, GATHER_ELEMENTS // max(n, 1))
-    for i0 in range(0, n, rows):
-        i1 = min(n, i0 + rows)
-        bi = big_id[i0:i1, None]
-        bj = big_id[None, i0:]
-        covered = (bi >= 0) & (bj >= 0) & done[np.maximum(bi, 0), np.maximum(bj, 0)]
-        need = ~covered & (np.arange(i0, n)[None, :] >= np.arange(i0, i1)[:, None])
-        ii, jj = np.nonzero(need)
-        if ii.size:
-            ii += i0
-            jj += i0
-            z[ii, jj] = op.entries(ii, jj)
-            stats.evaluated += ii.size
+    starts = range(0, n, rows)
+    with Progress("matrix assembly", len(starts) if n >= PROGRESS_MIN_SIZE else 0, unit="block") as progress:
+        for i0 in starts:
+            i1 = min(n, i0 + rows)
+            bi = big_id[i0:i1, None]
+            bj = big_id[None, i0:]
+            covered = (bi >= 0) & (bj >= 0) & done[np.maximum(bi, 0), np.maximum(bj, 0)]
+            need = ~covered & (np.arange(i0, n)[None, :] >= np.arange(i0, i1)[:, None])
+            ii, jj = np.nonzero(need)
+            if ii.size:
+                ii += i0
+                jj += i0
+                z[ii, jj] = op.entries(ii, jj)
+                stats.evaluated += ii.size
+            progress.update()
     stats.method = "reuse of repeated geometry"
     log.debug("assembly: %d classes, %d of %d pairs evaluated", stats.classes, stats.evaluated, stats.pairs)
     return z
