@@ -361,14 +361,24 @@ def _cmd_soil(args: argparse.Namespace) -> int:
     return 0
 
 
-def _jobs(value: str) -> int:
-    try:
-        n = int(value)
-    except ValueError:
-        n = 0
-    if n < 1:
-        raise argparse.ArgumentTypeError(f"--jobs must be a whole number of 1 or more, got '{value}'")
-    return n
+def _whole_number(option: str, least: int):
+    """An argparse type: a whole number of at least ``least``, or a clear error naming ``option``."""
+
+    def parse(value: str) -> int:
+        try:
+            n = int(value)
+        except ValueError:
+            n = least - 1
+        if n < least:
+            raise argparse.ArgumentTypeError(f"{option} must be a whole number of {least} or more, got '{value}'")
+        return n
+
+    return parse
+
+
+_jobs = _whole_number("--jobs", 1)
+_samples = _whole_number("--samples", 4)
+_seed = _whole_number("--seed", 0)
 
 
 def _output_paths(args, inputs) -> tuple[Path | None, Path | None]:
@@ -566,26 +576,6 @@ def _cmd_uncertainty(args: argparse.Namespace) -> int:
         log.info("wrote %s", report)
     _print_cautions()
     return 0
-
-
-def _samples(value: str) -> int:
-    try:
-        n = int(value)
-    except ValueError:
-        n = 0
-    if n < 4:
-        raise argparse.ArgumentTypeError(f"--samples must be a whole number of 4 or more, got '{value}'")
-    return n
-
-
-def _seed(value: str) -> int:
-    try:
-        n = int(value)
-    except ValueError:
-        n = -1
-    if n < 0:
-        raise argparse.ArgumentTypeError(f"--seed must be a whole number of 0 or more, got '{value}'")
-    return n
 
 
 def _add_common(p: argparse.ArgumentParser, report: str | None, json_help: str, jobs: bool = False) -> None:
