@@ -296,6 +296,7 @@ def discretisation_estimate(design: Design, geometry: GeometryResult, field_resu
     h = design.settings.segment_length_m
 
     def level(ratio: float):
+        log.info("discretisation check: solving the same design again with %g m segments", ratio * h)
         t = time.perf_counter()
         other = solve_geometry(replace(design, settings=replace(design.settings, segment_length_m=ratio * h)))
         return other.solution, other.solution.segments, time.perf_counter() - t
