@@ -57,6 +57,7 @@ import scipy.sparse
 from scipy.spatial import cKDTree
 
 from ..soil.greens import SURFACE
+from .krylov import preconditioned_cg
 from .operator import _G2, Operator
 
 __all__ = ["BLOCK_SIZE", "FAST_MIN_SIZE", "FastOperator", "FastUnavailable", "fast_solve"]
@@ -400,28 +401,7 @@ class FastOperator:
 
     def solve(self, rhs: np.ndarray, tol: float = 1e-9, max_iter: int = 500):
         """Preconditioned conjugate gradients (Saad 2003, Algorithm 9.1); ``(x, iterations)`` or ``(None, it)``."""
-        precond = self.block_preconditioner()
-        x = np.zeros(self.n)
-        r = np.asarray(rhs, dtype=float).copy()
-        z = precond(r)
-        p = z.copy()
-        rz = float(r @ z)
-        target = tol * float(np.linalg.norm(rhs))
-        for k in range(1, max_iter + 1):
-            q = self.matvec(p)
-            curv = float(p @ q)
-            if not curv > 0:
-                return None, k
-            alpha = rz / curv
-            x += alpha * p
-            r -= alpha * q
-            if float(np.linalg.norm(r)) <= target:
-                return x, k
-            z = precond(r)
-            rz_new = float(r @ z)
-            p = z + (rz_new / rz) * p
-            rz = rz_new
-        return None, max_iter
+        return preconditioned_cg(self.matvec, self.block_preconditioner(), rhs, tol, max_iter)
 
     # -- surface potentials ----------------------------------------------------------------
 

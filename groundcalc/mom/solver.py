@@ -24,6 +24,7 @@ from ..geometry.segments import Segmentation, Segments
 from ..model import Notice
 from ..soil.greens import Greens
 from .assembly import assemble
+from .krylov import preconditioned_cg
 from .operator import Operator
 
 __all__ = ["GeometryResult", "Solution", "assemble", "solve"]
@@ -105,11 +106,7 @@ def conjugate_gradients(z: np.ndarray, rhs: np.ndarray, tol: float = CG_TOLERANC
     (x, iterations) or (None, iterations)
         ``None`` when it did not converge or met a non-positive curvature.
 
-    References
-    ----------
-    M. R. Hestenes and E. Stiefel, Methods of conjugate gradients for solving
-    linear systems, J. Res. NBS 49, 1952; Y. Saad, Iterative Methods for
-    Sparse Linear Systems, 2nd ed., SIAM 2003, Algorithm 9.1.
+    The iteration is :func:`groundcalc.mom.krylov.preconditioned_cg`.
     """
     from scipy.linalg.blas import dsymv
 
@@ -119,27 +116,7 @@ def conjugate_gradients(z: np.ndarray, rhs: np.ndarray, tol: float = CG_TOLERANC
     if np.any(diag <= 0):
         return None, 0
     dinv = 1.0 / diag
-    x = np.zeros_like(rhs)
-    r = rhs.copy()
-    w = dinv * r
-    p = w.copy()
-    rw = float(r @ w)
-    target = tol * float(np.linalg.norm(rhs))
-    for k in range(1, max_iter + 1):
-        q = dsymv(1.0, zt, p, lower=1)
-        curv = float(p @ q)
-        if not curv > 0:
-            return None, k
-        alpha = rw / curv
-        x += alpha * p
-        r -= alpha * q
-        if float(np.linalg.norm(r)) <= target:
-            return x, k
-        w = dinv * r
-        rw_new = float(r @ w)
-        p = w + (rw_new / rw) * p
-        rw = rw_new
-    return None, max_iter
+    return preconditioned_cg(lambda p: dsymv(1.0, zt, p, lower=1), lambda r: dinv * r, rhs, tol, max_iter)
 
 
 def solve(segments: Segments, greens: Greens, method: str = "auto") -> Solution:
