@@ -187,16 +187,27 @@ def _check_soil(design: Design, notices: list[Notice]) -> None:
             raise _err("a two-layer soil needs the upper thickness and the lower resistivity", q, "Give both")
         _check_range(soil.thickness_m, "soil.thickness_m", "upper layer thickness", "m", "soil.thickness_m", notices)
         _check_range(soil.rho2_ohm_m, "soil.rho_ohm_m", "lower resistivity", "ohm*m", "soil.rho2_ohm_m", notices)
-        k = soil.reflection_k
-        if abs(k) > MAX_REFLECTION:
-            raise _err(
-                f"the reflection coefficient K = {k:+.6f} of the two layers is within {1 - abs(k):.2g} of "
-                f"{'+1' if k > 0 else '-1'} (resistivity ratio {soil.rho2_ohm_m / soil.rho1_ohm_m:.4g})",
-                "soil.rho2_ohm_m",
-                f"Accepted |K| <= {MAX_REFLECTION} (a ratio of at most about 2000, common practice); check the "
-                "units of the resistivities, or model the extreme layer as an insulator or a perfect conductor "
-                "by a more moderate ratio",
-            )
+        _check_reflection(
+            soil.rho1_ohm_m,
+            soil.rho2_ohm_m,
+            "of the two layers",
+            f" (resistivity ratio {soil.rho2_ohm_m / soil.rho1_ohm_m:.4g})",
+            "soil.rho2_ohm_m",
+            "check the units of the resistivities, or model the extreme layer as an insulator or a perfect "
+            "conductor by a more moderate ratio",
+        )
+
+
+def _check_reflection(rho_a: float, rho_b: float, between: str, detail: str, quantity: str, advice: str) -> None:
+    """Refuse adjacent layers whose reflection coefficient K = (rho_b - rho_a) / (rho_b + rho_a) is near +-1."""
+    k = (rho_b - rho_a) / (rho_b + rho_a)
+    if abs(k) > MAX_REFLECTION:
+        raise _err(
+            f"the reflection coefficient K = {k:+.6f} {between} is within {1 - abs(k):.2g} of "
+            f"{'+1' if k > 0 else '-1'}{detail}",
+            quantity,
+            f"Accepted |K| <= {MAX_REFLECTION} (a ratio of at most about 2000, common practice); {advice}",
+        )
 
 
 def _check_layers(soil, notices: list[Notice]) -> None:
@@ -215,19 +226,11 @@ def _check_layers(soil, notices: list[Notice]) -> None:
                 raise _err(f"layer {j} has no thickness", "soil.layers", "Only the last layer has no thickness")
             _check_range(h, "soil.thickness_m", f"thickness of layer {j}", "m", "soil.layers", notices)
         elif h is not None:
-            raise _err(
-                f"the last layer ({j}) has a thickness", "soil.layers", "Leave the last layer's thickness blank"
-            )
+            raise _err(f"the last layer ({j}) has a thickness", "soil.layers", "Leave the last layer's thickness blank")
     for j in range(len(layers) - 1):
-        r1, r2 = layers[j][0], layers[j + 1][0]
-        k = (r2 - r1) / (r2 + r1)
-        if abs(k) > MAX_REFLECTION:
-            raise _err(
-                f"the reflection coefficient K = {k:+.6f} between layers {j + 1} and {j + 2} is within "
-                f"{1 - abs(k):.2g} of {'+1' if k > 0 else '-1'}",
-                "soil.layers",
-                f"Accepted |K| <= {MAX_REFLECTION} (a ratio of at most about 2000, common practice); check the units",
-            )
+        _check_reflection(
+            layers[j][0], layers[j + 1][0], f"between layers {j + 1} and {j + 2}", "", "soil.layers", "check the units"
+        )
 
 
 def _check_wenner(design: Design) -> None:
