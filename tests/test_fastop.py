@@ -117,3 +117,33 @@ def test_whole_run_touch_and_step_within_0p3_percent_of_dense_path(name, monkeyp
     assert geo_fast.solution.resistance_ohm == pytest.approx(geo_exact.solution.resistance_ohm, rel=5e-4)
     assert field_fast.touch.voltage_per_gpr == pytest.approx(field_exact.touch.voltage_per_gpr, rel=3e-3)
     assert field_fast.step.voltage_per_gpr == pytest.approx(field_exact.step.voltage_per_gpr, rel=3e-3)
+
+
+ROD_SOILS = dict(
+    SOILS, three_layer=(Soil("multilayer", 300.0, 2.0, 80.0, layers=((300.0, 2.0), (80.0, 6.0), (500.0, None))), None)
+)
+
+
+@pytest.mark.parametrize("name", list(ROD_SOILS))
+def test_rod_couplings_from_radial_splines_match_exact_entries(name):
+    """Rods far from a segment or a surface point: spline of the point kernel against the exact operator.
+
+    Reference: the operator's exact entries (closed forms per image, Dwight 1936; image tails) for
+    every pair, the rods spread over the perimeter so that most pairs are distant.
+    """
+    soil, _ = ROD_SOILS[name]
+    cond = unequal_grid(40.0, 30.0, 7, 6, rods=False)
+    for k, (x, y) in enumerate([(0, 0), (20, 0), (40, 0), (40, 15), (40, 30), (20, 30), (0, 30), (0, 15)]):
+        cond.append(Conductor(f"r{k}", (x, y, 0.5), (x, y, 3.5), 0.016, "rod"))
+    seg = segment_conductors(cond, 1.0).segments
+    op = Operator(seg, build_greens(soil, seg, 5.0))
+    fast = FastOperator(op)
+    dense_h, _ = fast._dense_columns()
+    exact = fast._exact_block(fast.hidx, fast.vidx)
+    assert fast.rod_pos.size == fast.vidx.size > 0
+    assert np.max(np.abs(dense_h - exact)) < 1e-6 * np.max(np.abs(exact))
+    rods = fast.vidx[fast.rod_pos]
+    pts = np.random.default_rng(4).uniform([-30.0, -30.0], [70.0, 60.0], size=(500, 2))
+    q = np.random.default_rng(5).uniform(0.5, 1.5, rods.size)
+    ref = op.surface_potential(pts, q, rods)
+    assert np.max(np.abs(fast.rod_field.surface_potential(pts, q) - ref)) < 1e-6 * np.max(np.abs(ref))

@@ -29,7 +29,10 @@ layout (no lattice needed). It is a precorrected FFT (Phillips and White
   that distance ``erfc(R / sigma) < 2e-8`` and the two-point Gauss rule is
   as accurate as the corrected mid-point rule of the dense path.
 * **Other segments** (rods and sloping conductors) couple to everything by
-  exact dense columns (``n x n_v``); they are few on a grid.
+  dense columns (``n x n_v``); they are few on a grid. Rods (vertical
+  segments) take radial splines of the point kernel for distant pairs and
+  surface points (:mod:`groundcalc.mom.rodfield`) and exact entries near;
+  sloping segments take exact entries everywhere.
 
 The preconditioner is block-Jacobi on plan clusters of at most
 ``BLOCK_SIZE`` segments (recursive coordinate bisection), each block the
@@ -59,6 +62,7 @@ from scipy.spatial import cKDTree
 from ..soil.greens import SURFACE
 from .krylov import preconditioned_cg
 from .operator import _G2, Operator
+from .rodfield import RodField
 
 __all__ = ["BLOCK_SIZE", "FAST_MIN_SIZE", "FastOperator", "FastUnavailable", "fast_solve"]
 
@@ -228,6 +232,14 @@ class FastOperator:
         self.members_all = [np.flatnonzero(self.group == g) for g in range(len(self.keys))]
         self.tree = cKDTree(op.mid[self.hidx, :2])
         self._surface_cache: dict = {}
+        self.rod_field = None
+        rods = self.vidx[op.vertical[self.vidx]]
+        if rods.size:
+            span = float(np.max(np.ptp(op.mid[:, :2], axis=0)))
+            self.rod_field = RodField(op, rods, self.gauss, self.group, self.keys, self.r_near, self.r_near_p, span)
+        # vertical segments on the rod field, others (sloping) by exact columns
+        self.rod_pos = np.flatnonzero(op.vertical[self.vidx])
+        self.other_pos = np.setdiff1d(np.arange(self.vidx.size), self.rod_pos)
 
     def _surface_grid(self, pts: np.ndarray) -> _Grid | None:
         """Plan grid for surface points (kept while later points fall inside it); None if too large."""
@@ -269,7 +281,7 @@ class FastOperator:
             self.w.append(self.grid.weights(self.gauss[mem][:, :, :2].reshape(-1, 2)))
         self.khat = {key: self.grid.kernel_hat(k) for key, k in self._kernels.items()}
         self.near = self._near_matrix()
-        self.dense_v = self._dense_columns()
+        self.dense_h, self.dense_v = self._dense_columns()
         self._matrix_ready = True
 
     def _smooth_pairs(self, kernels: dict, gi, gj, pa: np.ndarray, pb: np.ndarray) -> np.ndarray:
@@ -314,18 +326,33 @@ class FastOperator:
         log.debug("fast operator: %d near pairs", pairs.shape[0])
         return scipy.sparse.csr_matrix((data, (rows, cols)), shape=(nh, nh))
 
-    def _dense_columns(self) -> np.ndarray:
-        """Exact columns ``Z[:, v]`` of the non-horizontal segments (n x n_v)."""
+    def _dense_columns(self) -> tuple[np.ndarray, np.ndarray]:
+        """Columns ``Z[:, v]`` of the non-horizontal segments: rows of horizontal (nh x nv), of the others (nv x nv).
+
+        Rods couple to horizontal segments through :class:`RodField` (exact
+        near pairs); sloping segments, and all pairs of non-horizontal
+        segments, take exact entries.
+        """
         nv = self.vidx.size
-        out = np.zeros((self.n, nv))
+        dense_h = np.zeros((self.hidx.size, nv))
         if nv == 0:
+            return dense_h, np.zeros((0, 0))
+        if self.rod_pos.size:
+            dense_h[:, self.rod_pos] = self.rod_field.columns(self.hidx)
+        dense_h[:, self.other_pos] = self._exact_block(self.hidx, self.vidx[self.other_pos])
+        return dense_h, self._exact_block(self.vidx, self.vidx)
+
+    def _exact_block(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        """Exact entries ``Z[rows][:, cols]``."""
+        out = np.zeros((rows.size, cols.size))
+        if cols.size == 0:
             return out
-        rows = max(1, PAIR_CHUNK // nv)
-        for i0 in range(0, self.n, rows):
-            i1 = min(self.n, i0 + rows)
-            ii = np.repeat(np.arange(i0, i1), nv)
-            jj = np.tile(self.vidx, i1 - i0)
-            out[i0:i1] = self.op.entries(ii, jj).reshape(i1 - i0, nv)
+        step = max(1, PAIR_CHUNK // cols.size)
+        for i0 in range(0, rows.size, step):
+            i1 = min(rows.size, i0 + step)
+            ii = np.repeat(rows[i0:i1], cols.size)
+            jj = np.tile(cols, i1 - i0)
+            out[i0:i1] = self.op.entries(ii, jj).reshape(i1 - i0, cols.size)
         return out
 
     # -- the product ---------------------------------------------------------------------
@@ -346,12 +373,11 @@ class FastOperator:
             yh[mem] = 0.5 * vals.reshape(-1, 2).sum(axis=1) / (4.0 * np.pi)
         yh += self.near @ xh
         y = np.zeros(self.n)
-        y[self.hidx] = yh
         if self.vidx.size:
             xv = x[self.vidx]
-            dv = self.dense_v
-            y += dv @ xv
-            y[self.vidx] += dv[self.hidx].T @ xh
+            yh += self.dense_h @ xv
+            y[self.vidx] = self.dense_h.T @ xh + self.dense_v @ xv
+        y[self.hidx] = yh
         return y
 
     # -- preconditioner and solve ------------------------------------------------------------
@@ -448,8 +474,10 @@ class FastOperator:
                 self._surface_kernels, None, self.group[b], pts[a][:, None, :], self.gauss[b][:, :, :2]
             )
             np.add.at(out, a, (exact - smooth) * qh[b])
-        if self.vidx.size:
-            out += op.surface_potential(pts, q[self.vidx], self.vidx)
+        if self.rod_pos.size:
+            out += self.rod_field.surface_potential(pts, q[self.vidx[self.rod_pos]])
+        if self.other_pos.size:
+            out += op.surface_potential(pts, q[self.vidx[self.other_pos]], self.vidx[self.other_pos])
         return out
 
 

@@ -371,6 +371,7 @@ class Operator:
         ``R_k = sqrt(d^2 + dz_k^2)``. It equals the point kernel to
         ``erfc(R / sigma)`` and is smooth on the scale ``sigma`` (Ewald
         splitting). ``layer_o`` may be :data:`SURFACE` (``z_o`` = 0).
+        ``sigma_m = 0`` gives the point kernel itself, ``sum_k w_k / R_k``.
 
         Returns
         -------
@@ -399,6 +400,9 @@ class Operator:
             out = np.zeros(d2.shape)
             for w, dz in w_dz:
                 r = np.sqrt(d2 + dz * dz)
+                if sigma_m <= 0.0:
+                    out += w / r
+                    continue
                 tiny = r < 1e-9 * sigma_m
                 safe = np.where(tiny, 1.0, r)
                 out += w * np.where(tiny, 2.0 / (sigma_m * np.sqrt(np.pi)), erf(safe / sigma_m) / safe)
@@ -411,9 +415,34 @@ class Operator:
             if table is not None:
                 # the table holds the non-leading images unsmoothed: remove their erfc part
                 out += table(d)[0]
-                for w, dz in less:
+                for w, dz in less if sigma_m > 0.0 else ():
                     r = np.sqrt(d2 + dz * dz)
                     out -= w * (1.0 - erf(r / sigma_m)) / np.maximum(r, 1e-300)
+            return out
+
+        return kernel
+
+    def point_kernel(self, layer_o: int, z_o: float, layer_s: int, z_s: float):
+        """Point kernel ``d -> sum_k w_k / R_k`` between two depths, every image and tail. [ohm*m/m]
+
+        From the soil model's radial sums where it has them for these depths,
+        else image by image plus the tails (any depths). ``layer_o`` may be
+        :data:`SURFACE` (``z_o`` = 0).
+        """
+        k = self.plan_kernel(layer_o, z_o, layer_s, z_s, 0.0)
+        if k is not None:
+            return k
+        g = self.greens
+        terms = [(img.weight_ohm_m, z_o - img.map_depth(z_s)) for img in g.images(layer_o, layer_s)]
+        tails = [(t.weight_ohm_m, float(t.argument(z_o, z_s))) for t in g.tails(layer_o, layer_s)]
+
+        def kernel(d: np.ndarray) -> np.ndarray:
+            d = np.asarray(d, dtype=float)
+            out = np.zeros(d.shape)
+            for w, dz in terms:
+                out += w / np.sqrt(d * d + dz * dz)
+            for w, v in tails:
+                out += w * g.tail_sum(d, np.full(d.shape, v))
             return out
 
         return kernel
