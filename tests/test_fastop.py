@@ -6,7 +6,7 @@ in tests/test_solver.py and tests/test_kernels.py. The fast product must reprodu
 precorrected FFT (Phillips and White 1997) corrects the near field exactly, so the only errors
 are the grid interpolation of a smooth kernel and the two-point Gauss rule on distant pairs.
 Tolerances: Rg 0.05 %, surface potential 1e-3 of GPR at 1,000 random points (common practice for
-a fast-method accuracy guard).
+a fast-method accuracy guard); the surface check is held to 1e-4 of GPR (measured 7e-7 to 1.1e-5).
 """
 
 from __future__ import annotations
@@ -75,13 +75,13 @@ def test_resistance_within_0p05_percent_of_dense_solve(case):
     assert abs(exact.sum() / x.sum() - 1.0) < 5e-4
 
 
-def test_surface_potential_at_random_points_within_1e3_of_gpr(case):
+def test_surface_potential_at_random_points_within_1e4_of_gpr(case):
     op, _, exact, fast = case
     pts = np.random.default_rng(2).uniform([-10.0, -10.0], [50.0, 40.0], size=(1000, 2))
     # points on top of conductors as well (the near correction at zero plan distance)
     pts[:20] = op.mid[op.horizontal][:20, :2]
     ref = op.surface_potential(pts, exact)  # grid at 1 V: potentials are per unit GPR
-    assert np.max(np.abs(fast.surface_potential(pts, exact) - ref)) < 1e-3
+    assert np.max(np.abs(fast.surface_potential(pts, exact) - ref)) < 1e-4
 
 
 def test_grid_interpolation_is_exact_for_polynomials():
@@ -100,7 +100,6 @@ def test_whole_run_touch_and_step_within_0p3_percent_of_dense_path(name, monkeyp
     """Solve, surface raster and touch/step search: matrix-free against dense, same design."""
     from groundcalc.analysis import solve_geometry, surface_field
     from groundcalc.mom import fastop
-    from groundcalc.surface import potential
 
     from .conftest import make_design
 
@@ -109,7 +108,6 @@ def test_whole_run_touch_and_step_within_0p3_percent_of_dense_path(name, monkeyp
     geo_exact = solve_geometry(design)
     field_exact = surface_field(design, geo_exact)
     monkeypatch.setattr(fastop, "FAST_MIN_SIZE", 0)
-    monkeypatch.setattr(potential, "FAST_POINT_PAIRS", 0)
     geo_fast = solve_geometry(design)
     assert geo_fast.solution.fast_operator is not None
     assert geo_exact.solution.fast_operator is None

@@ -25,6 +25,7 @@ def preconditioned_cg(
     rhs: np.ndarray,
     tol: float,
     max_iter: int,
+    on_residual: Callable[[float], None] | None = None,
 ):
     """Solve ``A x = rhs`` for symmetric positive definite ``A`` given as ``matvec``.
 
@@ -40,6 +41,8 @@ def preconditioned_cg(
         Stop when ``|r| <= tol |rhs|``.
     max_iter : int
         Largest number of iterations.
+    on_residual : callable, optional
+        Called with ``|r| / |rhs|`` after every iteration (progress display).
 
     Returns
     -------
@@ -61,7 +64,10 @@ def preconditioned_cg(
         alpha = rz / curv
         x += alpha * p
         r -= alpha * q
-        if float(np.linalg.norm(r)) <= target:
+        rnorm = float(np.linalg.norm(r))
+        if on_residual is not None:
+            on_residual(rnorm * tol / target if target > 0 else 0.0)
+        if rnorm <= target:
             return x, k
         z = precond(r)
         rz_new = float(r @ z)

@@ -33,6 +33,8 @@ __all__ = ["RodField"]
 
 #: Mesh step of the radial splines in log(d) (relative step 0.3 %).
 LOG_STEP = 0.003
+#: Point-axis pairs evaluated at once for surface potentials (memory bound).
+POINT_AXIS_CHUNK = 2_000_000
 
 
 class RodField:
@@ -87,6 +89,7 @@ class RodField:
         d = np.exp(self.u)
         self.obs_splines = [self._spline(lay_o, z_o, d) for lay_o, z_o in obs_keys]
         self.surface_spline = self._spline(SURFACE, 0.0, d)
+        self._coef = None  # (currents, per-axis cubics) of the last surface evaluation
 
     def _spline(self, layer_o: int, z_o: float, d: np.ndarray) -> CubicSpline:
         cols = [self.op.point_kernel(layer_o, z_o, lay_s, z_s)(d) for lay_s, z_s in self.rkeys]
@@ -94,7 +97,6 @@ class RodField:
 
     def _values(self, spline: CubicSpline, d: np.ndarray) -> np.ndarray:
         return spline(np.log(np.maximum(d, self.d_lo)))
-
     def columns(self, hidx: np.ndarray) -> np.ndarray:
         """``Z[hidx, rods]`` (nh x n_rods): spline values, exact entries for near pairs. [ohm]"""
         nh = self.obs_gauss.shape[0]
@@ -119,19 +121,41 @@ class RodField:
         return out
 
     def surface_potential(self, pts: np.ndarray, q: np.ndarray) -> np.ndarray:
-        """Potential at surface plan points ``pts`` of rod currents ``q`` (one per rod segment). [V]"""
-        w = np.zeros((self.n_axes, len(self.rkeys)))
-        for t in range(2):
-            np.add.at(w, (self.axis, self.rgroup[:, t]), 0.5 * q)
+        """Potential at surface plan points ``pts`` of rod currents ``q`` (one per rod segment). [V]
+
+        The surface spline is contracted with each axis's currents into one
+        cubic per axis and mesh interval, evaluated for every point-axis pair
+        at once (the mesh is uniform in ``log d``); near pairs are exact.
+        """
+        cached = self._coef
+        if cached is not None and np.array_equal(cached[0], q):
+            coef = cached[1]
+        else:
+            w = np.zeros((self.n_axes, len(self.rkeys)))
+            for t in range(2):
+                np.add.at(w, (self.axis, self.rgroup[:, t]), 0.5 * q)
+            coef = np.einsum("kir,ar->kia", self.surface_spline.c, w)  # (4, intervals, axes)
+            self._coef = (np.array(q, dtype=float), coef)
+        u0, du, last = self.u[0], self.u[1] - self.u[0], coef.shape[1] - 1
+        axes = np.arange(self.n_axes)[None, :]
         out = np.zeros(pts.shape[0])
-        for k, pos in enumerate(self.axis_pos):
-            d = np.hypot(pts[:, 0] - self.axis_xy[k, 0], pts[:, 1] - self.axis_xy[k, 1])
+        near_p, near_a = [], []
+        step = max(1, POINT_AXIS_CHUNK // self.n_axes)
+        for p0 in range(0, pts.shape[0], step):
+            pp = pts[p0 : p0 + step]
+            d = np.hypot(pp[:, 0, None] - self.axis_xy[None, :, 0], pp[:, 1, None] - self.axis_xy[None, :, 1])
+            x = np.log(np.maximum(d, self.d_lo)) - u0
+            i = np.clip(np.floor(x / du).astype(np.int64), 0, last)
+            x -= i * du
+            val = ((coef[0][i, axes] * x + coef[1][i, axes]) * x + coef[2][i, axes]) * x + coef[3][i, axes]
             far = (d >= self.r_point) & (d <= self.d_hi)
-            if far.all():
-                out += self._values(self.surface_spline, d) @ w[k]
-                continue
-            f = np.flatnonzero(far)
-            out[f] += self._values(self.surface_spline, d[f]) @ w[k]
-            n = np.flatnonzero(~far)
-            out[n] += self.op.surface_potential(pts[n], q[pos], self.rods[pos])
+            out[p0 : p0 + step] = np.where(far, val, 0.0).sum(axis=1)
+            pi, ai = np.nonzero(~far)
+            near_p.append(pi + p0)
+            near_a.append(ai)
+        pi, ai = np.concatenate(near_p), np.concatenate(near_a)
+        for k in np.unique(ai).tolist():
+            sel = pi[ai == k]
+            pos = self.axis_pos[k]
+            out[sel] += self.op.surface_potential(pts[sel], q[pos], self.rods[pos])
         return out

@@ -64,21 +64,17 @@ def surface_potential(points_xy: np.ndarray, solution: Solution, gpr_v: float) -
     Evaluated by :meth:`groundcalc.mom.operator.Operator.surface_potential`:
     the corrected mid-point rule for distant horizontal segments, exact
     line-source integrals per image and a Gauss rule on the image tails
-    near them. When the solution was found by the matrix-free operator and
-    the point-segment pairs are many (at least ``FAST_POINT_PAIRS``), its
-    plan-grid FFT evaluation is used instead
-    (:meth:`groundcalc.mom.fastop.FastOperator.surface_potential`).
+    near them. When the solution was found by the matrix-free operator, its
+    plan-grid FFT evaluation is used instead (one FFT per set of currents,
+    then a few exact near pairs per point;
+    :meth:`groundcalc.mom.fastop.FastOperator.surface_potential`).
     """
     pts = np.asarray(points_xy, dtype=float).reshape(-1, 2)
     current = solution.currents_per_gpr * gpr_v
     fast = solution.fast_operator
-    if fast is not None and pts.shape[0] * len(solution.segments) >= FAST_POINT_PAIRS:
+    if fast is not None:
         return fast.surface_potential(pts, current)
     return solution.operator.surface_potential(pts, current)
-
-
-#: Point-segment pairs from which a matrix-free solution evaluates surface potentials by FFT.
-FAST_POINT_PAIRS = 2_000_000
 
 
 @dataclass(frozen=True)
@@ -164,13 +160,15 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
     potential of one such segment at every raster offset, evaluated once by
     :func:`surface_potential`. The convolution is done by FFT
     (``scipy.fft``); other segments are summed directly. Both
-    give the same values to round-off (tests/test_surface.py).
+    give the same values to round-off (tests/test_surface.py). A
+    matrix-free solution evaluates every raster point by its plan-grid FFT
+    (:func:`surface_potential`), whatever the layout.
     """
     seg = solution.segments
     nx, ny = x.size, y.size
     xx, yy = np.meshgrid(x, y)
     flat = np.column_stack([xx.ravel(), yy.ravel()])
-    if nx < 2 or ny < 2 or len(seg) < LATTICE_MIN_GROUP:
+    if nx < 2 or ny < 2 or len(seg) < LATTICE_MIN_GROUP or solution.fast_operator is not None:
         return surface_potential(flat, solution, gpr_v).reshape(ny, nx)
     sx, sy = x[1] - x[0], y[1] - y[0]
     mid = seg.mid
@@ -209,13 +207,7 @@ def raster_potential(x: np.ndarray, y: np.ndarray, solution: Solution, gpr_v: fl
         # raster row j sits at a = j + y1i - y0i, column i at b = i + x1i - x0i
         out += full[y1i - y0i : y1i - y0i + ny, x1i - x0i : x1i - x0i + nx]
     if direct.size:
-        fast = solution.fast_operator
-        if fast is not None and flat.shape[0] * direct.size >= FAST_POINT_PAIRS:
-            q = np.zeros(len(seg))
-            q[direct] = current[direct]
-            out += fast.surface_potential(flat, q).reshape(ny, nx)
-        else:
-            out += op.surface_potential(flat, current[direct], direct).reshape(ny, nx)
+        out += op.surface_potential(flat, current[direct], direct).reshape(ny, nx)
     return out
 
 
