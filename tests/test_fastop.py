@@ -145,3 +145,20 @@ def test_rod_couplings_from_radial_splines_match_exact_entries(name):
     q = np.random.default_rng(5).uniform(0.5, 1.5, rods.size)
     ref = op.surface_potential(pts, q, rods)
     assert np.max(np.abs(fast.rod_field.surface_potential(pts, q) - ref)) < 1e-6 * np.max(np.abs(ref))
+
+
+def test_large_matrix_free_solve_reports_near_pairs_and_residual_decades(case, monkeypatch, caplog):
+    """Progress of the setup and of conjugate gradients; the solution is the same as without it."""
+    import logging
+
+    from groundcalc.mom import fastop
+
+    op, _, exact, _ = case
+    quiet, _ = FastOperator(op).solve(np.ones(exact.size))
+    monkeypatch.setattr(fastop, "PROGRESS_MIN_SIZE", 1)
+    with caplog.at_level(logging.INFO, logger="groundcalc"):
+        shown, _ = FastOperator(op).solve(np.ones(exact.size))
+    messages = [r.getMessage() for r in caplog.records]
+    assert any(m.startswith("near pairs: 1/1 done") for m in messages)
+    assert any(m.startswith("conjugate gradients (residual decades): 9/9 done") for m in messages)
+    np.testing.assert_array_equal(shown, quiet)
