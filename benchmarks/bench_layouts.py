@@ -14,7 +14,8 @@ unequal / regular (same size, same soil) measured in the same run. Targets:
   the whole run under 3 minutes and peak memory under 6 GiB, printed with the time of one
   complex FFT of the same number of points and one ``numpy.dot`` of two vectors of that
   length as a floor;
-* ``--sweep``: 24 unequal 140 m layouts (conductor counts 24 to 35 per side), uniform soil.
+* ``--sweep``: 24 unequal 140 m layouts (conductor counts 24 to 35 per side, uniform soil of
+  100 and 200 ohm*m) side by side by ``groundcalc.compare``, which takes the same matrix-free path.
 
 Run:  python benchmarks/bench_layouts.py [--large] [--sweep] [--only 140]
 """
@@ -135,11 +136,18 @@ def large(seg_m: float):
 
 
 def sweep():
+    import groundcalc as gc
+
+    designs = [
+        design(conductors(140.0, 140.0, count, count, True), soil)
+        for count in range(24, 36)
+        for soil in (UNIFORM, Soil("uniform", 200.0))
+    ]
     t0 = time.perf_counter()
-    for count in range(24, 36):
-        for soil in (UNIFORM, Soil("uniform", 200.0)):
-            whole_run(design(conductors(140.0, 140.0, count, count, True), soil))
-    print(f"  24 unequal 140 m layouts: {time.perf_counter() - t0:.1f} s in all")
+    table = gc.compare(designs)
+    t = time.perf_counter() - t0
+    print(f"  24 unequal 140 m layouts by groundcalc.compare: {t:.1f} s in all, {t / 24:.1f} s per layout")
+    print(f"  segments per layout {int(table['segment_count'].min())} to {int(table['segment_count'].max())}")
 
 
 def main() -> None:
