@@ -133,8 +133,8 @@ def test_rod_couplings_from_radial_splines_match_exact_entries(name):
     cond = unequal_grid(40.0, 30.0, 7, 6, rods=False)
     for k, (x, y) in enumerate([(0, 0), (20, 0), (40, 0), (40, 15), (40, 30), (20, 30), (0, 30), (0, 15)]):
         cond.append(Conductor(f"r{k}", (x, y, 0.5), (x, y, 3.5), 0.016, "rod"))
-    seg = segment_conductors(cond, 1.0).segments
-    op = Operator(seg, build_greens(soil, seg, 5.0))
+    seg = segment_conductors(cond, 2.0).segments
+    op = Operator(seg, build_greens(soil, seg, 10.0))
     fast = FastOperator(op)
     dense_h, _ = fast._dense_columns()
     exact = fast._exact_block(fast.hidx, fast.vidx)

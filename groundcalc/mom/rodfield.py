@@ -54,7 +54,7 @@ class RodField:
         Near radii (plan distance of mid point to the rod axis) for segment
         pairs and for surface points; the longest rod segment is added. [m]
     extent : float
-        Plan size of the layout (the splines reach 20 times as far). [m]
+        Plan size of the layout (the splines reach a quarter farther, plus 20 m). [m]
     """
 
     def __init__(self, op: Operator, rods, obs_gauss, obs_group, obs_keys, r_segment, r_point, extent) -> None:
@@ -82,7 +82,8 @@ class RodField:
         self.obs_members = [np.flatnonzero(obs_group == g) for g in range(len(obs_keys))]
         self.obs_mid = 0.5 * (obs_gauss[:, 0, :2] + obs_gauss[:, 1, :2])
         self.d_lo = 0.25 * min(self.r_segment, self.r_point)
-        self.d_hi = 20.0 * float(extent) + 1000.0  # farther points are summed exactly
+        # farther points are summed exactly; the soil model's tables cover the layout's distances
+        self.d_hi = 1.25 * float(extent) + 20.0
         d_hi = 1.01 * self.d_hi
         n = int(np.ceil(np.log(d_hi / self.d_lo) / LOG_STEP)) + 8
         self.u = np.linspace(np.log(self.d_lo), np.log(d_hi), n)
@@ -97,6 +98,7 @@ class RodField:
 
     def _values(self, spline: CubicSpline, d: np.ndarray) -> np.ndarray:
         return spline(np.log(np.maximum(d, self.d_lo)))
+
     def columns(self, hidx: np.ndarray) -> np.ndarray:
         """``Z[hidx, rods]`` (nh x n_rods): spline values, exact entries for near pairs. [ohm]"""
         nh = self.obs_gauss.shape[0]
