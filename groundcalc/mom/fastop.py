@@ -108,7 +108,8 @@ class _Radial:
     The smoothed kernels are smooth on the scale of two grid steps or more,
     so ``RADIAL_STEPS`` samples per grid step (scipy.interpolate.CubicSpline,
     zero slope at d = 0, where the kernel is even in d) reproduce them to
-    about 1e-9: a few thousand kernel evaluations serve every grid offset
+    about 1e-8 of their largest value (8e-9 measured for the kernels of
+    300 / 50 ohm*m two-layer soil): a few thousand kernel evaluations serve every grid offset
     and every near pair. The mesh grows when a larger distance is asked for.
     """
 
