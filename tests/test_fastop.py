@@ -162,3 +162,28 @@ def test_large_matrix_free_solve_reports_near_pairs_and_residual_decades(case, m
     assert any(m.startswith("near pairs: 1/1 done") for m in messages)
     assert any(m.startswith("conjugate gradients (residual decades): 9/9 done") for m in messages)
     np.testing.assert_array_equal(shown, quiet)
+
+
+def test_surface_grid_too_large_for_memory_is_coarsened_then_summed_directly(case, monkeypatch, caplog):
+    """A surface grid over the memory cap: a coarser grid (still within 1e-3 of GPR), then direct sums."""
+    import logging
+
+    from groundcalc.mom import fastop
+
+    op, _, exact, _ = case
+    pts = np.random.default_rng(6).uniform([-10.0, -10.0], [50.0, 40.0], size=(300, 2))
+    ref = op.surface_potential(pts, exact)
+    full = FastOperator(op)
+    nodes = full._surface_grid(pts).padded
+    monkeypatch.setattr(fastop, "MAX_GRID_NODES", nodes[0] * nodes[1] - 1)
+    coarse = FastOperator(op)
+    with caplog.at_level(logging.INFO, logger="groundcalc"):
+        got = coarse.surface_potential(pts, exact)
+    assert coarse._surface_cache["grid_obj"].h > full._surface_grid(pts).h
+    assert any("coarsened" in r.getMessage() for r in caplog.records)
+    assert np.max(np.abs(got - ref)) < 1e-3
+    monkeypatch.setattr(fastop, "MAX_GRID_NODES", 1)
+    with caplog.at_level(logging.INFO, logger="groundcalc"):
+        direct = FastOperator(op).surface_potential(pts, exact)
+    assert any("summed directly" in r.getMessage() for r in caplog.records)
+    np.testing.assert_allclose(direct, ref, rtol=1e-12, atol=1e-14)

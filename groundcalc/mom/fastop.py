@@ -93,9 +93,11 @@ RADIAL_STEPS = 16
 BLOCK_SIZE = 48
 #: Pairs evaluated at once for near corrections (memory bound).
 PAIR_CHUNK = 400_000
-#: Largest padded plan grid (nodes) a surface evaluation may use before it falls back to direct sums
-#: (about 2 GiB of FFT work arrays).
+#: Largest padded plan grid (nodes) of a surface evaluation (about 2 GiB of FFT work arrays).
 MAX_GRID_NODES = 48_000_000
+#: Spacings of the surface grid tried in turn (times its default) to stay within ``MAX_GRID_NODES``;
+#: twice the default is the matrix grid's ratio (2e-4 of GPR measured); beyond, direct sums.
+SURFACE_GRID_COARSENING = (1.0, 1.5, 2.0)
 
 
 class FastUnavailable(RuntimeError):
@@ -280,13 +282,22 @@ class FastOperator:
             lo, hi = np.minimum(lo, cache["lo"]), np.maximum(hi, cache["hi"])
         pad = 0.03 * float(np.max(hi - lo)) + 4.0 * self.h_grid_p  # room for later points nearby
         lo, hi = lo - pad, hi + pad
-        grid = _Grid(lo, hi, self.h_grid_p)
-        if grid.padded[0] * grid.padded[1] > MAX_GRID_NODES:
+        for scale in SURFACE_GRID_COARSENING:
+            grid = _Grid(lo, hi, scale * self.h_grid_p)
+            if grid.padded[0] * grid.padded[1] <= MAX_GRID_NODES:
+                break
+        else:
             log.warning(
                 "surface plan grid of %d x %d nodes is too large: surface potentials summed directly (slow)",
                 *grid.padded,
             )
             return None
+        if scale > 1.0:
+            log.info(
+                "surface plan grid coarsened to %.3g m to fit in memory (surface potentials within about "
+                "2e-4 of GPR instead of 1e-5)",
+                grid.h,
+            )
         cache.clear()
         cache.update(
             grid_obj=grid,
