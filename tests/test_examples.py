@@ -89,3 +89,22 @@ def test_uncertainty_example_reads_its_ranges():
     assert [q.key for q in qs] == ["fault current", "split factor", "fault duration", "surface layer resistivity"]
     assert qs[0].low == 7000.0 and qs[0].high == 9000.0  # kA converted to A
     assert notes == ()  # every range contains the design's own value
+
+
+def test_large_example_script_reproduces_the_shipped_workbook_which_takes_the_matrix_free_path(tmp_path):
+    from groundcalc.geometry.segments import segment_conductors
+    from groundcalc.mom.fastop import FAST_MIN_SIZE
+
+    spec = importlib.util.spec_from_file_location("make_large_example", ROOT / "examples" / "make_large_example.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    path = mod.build(tmp_path / "large.xlsx")
+    a = openpyxl.load_workbook(path)
+    b = openpyxl.load_workbook(ROOT / "examples" / "kestrel-brook-large.xlsx")
+    for ws in a.worksheets:
+        assert list(ws.iter_rows(values_only=True)) == list(b[ws.title].iter_rows(values_only=True))
+    d = read_design(ROOT / "examples" / "kestrel-brook-large.xlsx")
+    assert "fictional" in d.project.site
+    assert d.soil.model == "two-layer"
+    seg = segment_conductors(d.all_conductors(), d.settings.segment_length_m, interface_depth_m=2.5)
+    assert len(seg.segments) >= FAST_MIN_SIZE
