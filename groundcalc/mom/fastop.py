@@ -262,7 +262,8 @@ class FastOperator:
         self.rod_field = None
         rods = self.vidx[op.vertical[self.vidx]]
         if rods.size:
-            span = float(np.max(np.ptp(op.mid[:, :2], axis=0)))
+            ends = np.concatenate([op.segments.a[:, :2], op.segments.b[:, :2]])
+            span = float(np.hypot(*np.ptp(ends, axis=0)))  # plan diagonal: no segment pair is farther
             self.rod_field = RodField(op, rods, self.gauss, self.group, self.keys, self.r_near, self.r_near_p, span)
         # vertical segments on the rod field, others (sloping) by exact columns
         self.rod_pos = np.flatnonzero(op.vertical[self.vidx])

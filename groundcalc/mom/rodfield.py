@@ -54,7 +54,9 @@ class RodField:
         Near radii (plan distance of mid point to the rod axis) for segment
         pairs and for surface points; the longest rod segment is added. [m]
     extent : float
-        Plan size of the layout (the splines reach a quarter farther, plus 20 m). [m]
+        Plan diagonal of the layout, the largest segment-rod distance (the
+        splines reach a quarter farther, plus 20 m; farther surface points are
+        summed exactly). [m]
     """
 
     def __init__(self, op: Operator, rods, obs_gauss, obs_group, obs_keys, r_segment, r_point, extent) -> None:
