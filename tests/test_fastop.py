@@ -206,3 +206,41 @@ def test_rod_coupling_across_the_plan_diagonal_of_a_large_square_layout():
     assert far.sum() >= 8
     # measured 2e-11; splines that stopped short of the diagonal extrapolated to 7e-7
     assert np.max(np.abs(dense_h[far] - exact[far]) / np.abs(exact[far])) < 1e-8
+
+
+@pytest.mark.parametrize("name", ["uniform", "K-0.9"])
+def test_floating_metal_groups_matrix_free_against_the_dense_schur_complement(name, monkeypatch):
+    """Grid with a floating perimeter fence wire and a floating pipe: same potentials, no net current.
+
+    Reference: the dense Cholesky factorisation with the Schur complement on the group potentials
+    (Golub and Van Loan 2013, sec. 4.2), itself checked against Sunde's mutual resistance in
+    tests/test_groups.py.
+    """
+    from groundcalc.geometry.metal import MetalGroup, MetalLayout, segment_groups
+    from groundcalc.mom import fastop
+    from groundcalc.mom.groups import solve_groups
+
+    soil, interface = SOILS[name]
+    fence = [
+        Conductor(f"f{k}", a, b, 0.008)
+        for k, (a, b) in enumerate(
+            [
+                ((-2.0, -2.0, 0.3), (42.0, -2.0, 0.3)),
+                ((42.0, -2.0, 0.3), (42.0, 32.0, 0.3)),
+                ((42.0, 32.0, 0.3), (-2.0, 32.0, 0.3)),
+                ((-2.0, 32.0, 0.3), (-2.0, -2.0, 0.3)),
+            ]
+        )
+    ]
+    pipe = (Conductor("pipe", (-10.0, 12.0, 1.0), (50.0, 12.0, 1.0), 0.1),)
+    layout = MetalLayout(groups=(MetalGroup("fence", False, tuple(fence)), MetalGroup("pipe", False, pipe)))
+    gs = segment_groups(unequal_grid(40.0, 30.0, 7, 6), layout, 2.0, interface_depth_m=interface)
+    seg = gs.segmentation.segments
+    greens = build_greens(soil, seg, 10.0)
+    dense = solve_groups(seg, greens, gs.group, gs.bonded, gs.names)
+    monkeypatch.setattr(fastop, "FAST_MIN_SIZE", 0)
+    fast = solve_groups(seg, greens, gs.group, gs.bonded, gs.names)
+    assert fast.solution.fast_operator is not None and dense.solution.fast_operator is None
+    assert fast.solution.resistance_ohm == pytest.approx(dense.solution.resistance_ohm, rel=5e-4)
+    np.testing.assert_allclose(fast.potential_pu, dense.potential_pu, rtol=1e-3)
+    assert np.all(np.abs(fast.net_current_a[1:]) < 1e-6 * fast.net_current_a[0])

@@ -256,6 +256,7 @@ class FastOperator:
                 raise FastUnavailable(f"no surface plan kernel for layer {lay} at depth {z} m")
             self._surface_kernels[g] = _Radial(k, self.h_grid_p / RADIAL_STEPS)
         self._matrix_ready = False
+        self._precond = None
         self.members_all = [np.flatnonzero(self.group == g) for g in range(len(self.keys))]
         self.tree = cKDTree(op.mid[self.hidx, :2])
         self._surface_cache: dict = {}
@@ -468,7 +469,12 @@ class FastOperator:
         return out
 
     def block_preconditioner(self):
-        """Block-Jacobi preconditioner on plan clusters: ``r -> B^-1 r``."""
+        """Block-Jacobi preconditioner on plan clusters: ``r -> B^-1 r`` (built once, kept)."""
+        if self._precond is None:
+            self._precond = self._build_preconditioner()
+        return self._precond
+
+    def _build_preconditioner(self):
         self._setup_matrix()
         mid = self.op.mid[:, :2]
         clusters: list[np.ndarray] = []

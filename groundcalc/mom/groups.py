@@ -13,7 +13,10 @@ leaves the Schur complement on the group potentials,
     (B^T Z^-1 B) V = -B^T Z^-1 e,
 
 which is symmetric positive definite because ``Z`` is. One Cholesky
-factorisation of ``Z`` with ``1 + G`` right-hand sides gives everything.
+factorisation of ``Z`` with ``1 + G`` right-hand sides gives everything;
+from ``FAST_MIN_SIZE`` segments the same right-hand sides are solved by
+the matrix-free operator instead (:mod:`groundcalc.mom.fastop`), one
+preconditioner for all of them.
 The same factorisation gives the resistance matrix between groups,
 ``R = (C^T Z^-1 C)^-1`` for the incidence ``C`` of all groups: the
 potentials of the groups for given net currents into them, which is
@@ -91,6 +94,33 @@ def _solve_many(z: np.ndarray, rhs: np.ndarray) -> tuple[np.ndarray, str]:
     return scipy.linalg.cho_solve(factor, rhs, check_finite=False), method
 
 
+def _solve_matrix_free(segments: Segments, greens: Greens, rhs: np.ndarray):
+    """``(fast operator, X)`` for ``Z X = rhs`` without a matrix from ``FAST_MIN_SIZE`` segments, else ``(None, None)``.
+
+    One operator and one preconditioner serve every right-hand side
+    (:mod:`groundcalc.mom.fastop`); any failure to converge returns to the
+    dense path.
+    """
+    from . import fastop
+    from .operator import Operator
+
+    if len(segments) < fastop.FAST_MIN_SIZE:
+        return None, None
+    try:
+        fast = fastop.FastOperator(Operator(segments, greens))
+    except fastop.FastUnavailable as exc:
+        log.info("dense path: %s", exc)
+        return None, None
+    cols = []
+    for k in range(rhs.shape[1]):
+        x, iterations = fast.solve(rhs[:, k])
+        if x is None:
+            log.warning("matrix-free solve did not converge in %d iterations; dense path instead", iterations)
+            return None, None
+        cols.append(x)
+    return fast, np.column_stack(cols)
+
+
 def solve_groups(
     segments: Segments, greens: Greens, group: np.ndarray, bonded: np.ndarray, names: tuple[str, ...] = ()
 ) -> GroupSolution:
@@ -130,13 +160,17 @@ def solve_groups(
         raise ValueError("group 0 is the grid and is held at the GPR")
     n = len(segments)
     ng = bonded.size
-    z = _symmetric(assemble(segments, greens))
     e = bonded[group].astype(float)
     fl = np.flatnonzero(~bonded)
     b = np.zeros((n, fl.size))
     for col, k in enumerate(fl):
         b[group == k, col] = 1.0
-    x, method = _solve_many(z, np.column_stack([e, b]))
+    rhs = np.column_stack([e, b])
+    fast, x = _solve_matrix_free(segments, greens, rhs)
+    if fast is not None:
+        method = "matrix-free plan-grid FFT operator, block-Jacobi conjugate gradients (residual 1e-9), per group"
+    else:
+        x, method = _solve_many(_symmetric(assemble(segments, greens)), rhs)
     x0, xb = x[:, 0], x[:, 1:]
     v = np.ones(ng)
     if fl.size:
@@ -161,7 +195,7 @@ def solve_groups(
                 "note",
             )
         )
-    sol = Solution(segments, 1.0 / total, currents, greens, method, tuple(notices))
+    sol = Solution(segments, 1.0 / total, currents, greens, method, tuple(notices), fast)
     log.info("grid resistance %.4g ohm with %d floating group(s)", sol.resistance_ohm, fl.size)
     return GroupSolution(sol, tuple(names), bonded, group, v, net)
 
