@@ -73,8 +73,10 @@ RANGES: dict[str, tuple[float | None, float | None, float | None, float | None, 
     "settings.snap_tolerance_m": (0.0, 1.0, None, None, "common practice (0.01 to 0.1 m is typical)"),
 }
 
-#: Most segments one design may need (about the largest dense system solved on a workstation).
-MAX_SEGMENTS = 30_000
+#: Most segments one design may need: large grids are solved matrix-free with memory linear in
+#: the segments (211,544 segments took 4.1 GiB, benchmarks/bench_layouts.py --km), so this keeps
+#: a run within about 6 GiB.
+MAX_SEGMENTS = 250_000
 #: Longest side of a Grids row (the largest substation grids are about a kilometre across). [m]
 MAX_GRID_SIDE_M = 10_000.0
 #: Most parallel conductors of one direction in a Grids row (2 to 40 is typical; common practice).

@@ -199,3 +199,46 @@ def test_bonded_metal_and_replace_mode_are_noted():
     assert not r.assessment.footprint_counts
     # inside the footprint the area touch cannot exceed the footprint maximum (same field, subset)
     assert _check(r, "area", "inner").value_v <= r.max_touch_v * (1 + 1e-6)
+
+
+def test_two_fences_sharing_a_post_are_refused_naming_the_row(tmp_path):
+    """Fence runs that meet at a post but carry different labels: one post in two groups.
+
+    The shared post would be counted twice (a singular moment matrix); the reader's row is named
+    and the fix (one label) is said. Workbook: the fence demo with its paddock fence moved to
+    start at the perimeter's north-east corner post, floating.
+    """
+    import openpyxl
+
+    from groundcalc.errors import InputError
+    from groundcalc.io.workbook import read_design
+
+    from .conftest import ROOT
+
+    wb = openpyxl.load_workbook(ROOT / "examples" / "kestrel-brook-fence-unbonded.xlsx")
+    ws = wb["Fences"]
+    row = next(r for r in range(2, ws.max_row + 1) if ws.cell(r, 1).value == "Paddock")
+    for col, value in ((2, 73.5), (3, 41.5), (4, 150.0), (5, 41.5)):
+        ws.cell(row, col, value)
+    path = tmp_path / "shared-post.xlsx"
+    wb.save(path)
+    with pytest.raises(InputError) as err:
+        analyse(read_design(path))
+    text = str(err.value)
+    assert f"Fences row {row}" in text
+    assert "the same metal cannot belong to two groups" in text
+    assert "same Label" in text
+
+
+def test_floating_groups_that_cross_are_noted():
+    """Two floating conductors crossing at one point: solved as two groups, with a notice."""
+    from groundcalc.model import Conductor
+
+    a = MetalGroup("pipe A", False, (Conductor("a", (-6.0, 6.0, 1.0), (18.0, 6.0, 1.0), 0.1),))
+    b = MetalGroup("pipe B", False, (Conductor("b", (6.0, -6.0, 1.0), (6.0, 18.0, 1.0), 0.1),))
+    design = replace(make_design(grids=[GRID], segment=2.0, spacing=1.0), metal=MetalLayout(groups=(a, b)))
+    from groundcalc.analysis import solve_geometry
+
+    geo = solve_geometry(design)
+    notes = geo.segmentation.notices
+    assert any(n.code == "floating-groups-touch" and "pipe B" in n.message for n in notes)

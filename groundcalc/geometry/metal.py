@@ -18,6 +18,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from ..errors import InputError
 from ..model import (
     DEFAULT_FENCE_REACH_M,
     DEFAULT_WIRE_DIAMETER_M,
@@ -30,6 +31,7 @@ from ..model import (
     Notice,
     Profile,
 )
+from .repairs import collinear_overlap, near_line
 from .segments import Segmentation, Segments, move_off_interface, not_connected_notice, segment_conductors
 
 __all__ = [
@@ -216,10 +218,12 @@ def segment_groups(
     kept = [n for n in first.notices if n.code != "not-connected"]
     loose = _loose_grid_notice(first, len(grid_c))
     parts[0] = replace(first, notices=((loose,) if loose else ()) + tuple(kept))
+    placed: list[tuple[str, Conductor]] = [("grid", c) for c in grid_c + bonded_c]
     for k, g in enumerate(layout.groups, start=1):
         if g.bonded:
             continue
         cs = prepared(g.conductors)
+        _refuse_shared_metal(g.name, cs, placed)
         s = segment_conductors(cs, target_length_m, interface_depth_m=interface_depth_m)
         parts.append(replace(s, notices=tuple(n for n in s.notices if n.code != "not-connected")))
         cond_group += [k] * len(cs)
@@ -232,12 +236,46 @@ def segment_groups(
                     "that contact bonds it. It is still solved as floating; mark it bonded if the contact is real.",
                 )
             )
+        earlier = [c for name, c in placed if name != "grid"]
+        touching = _touching(cs, earlier)
+        if touching:
+            notices.append(
+                Notice(
+                    "floating-groups-touch",
+                    f"The floating group '{g.name}' touches another floating group ({touching}); in the ground "
+                    "that contact joins them. Both are still solved as separate floating groups; give them one "
+                    "group (or one fence label) if the contact is real.",
+                )
+            )
+        placed += [(g.name, c) for c in cs]
     seg = _concat(parts)
     seg = replace(seg, notices=tuple(notices) + seg.notices)
     group = np.asarray(cond_group, dtype=np.int64)[seg.segments.conductor]
     names = ("grid",) + tuple(g.name for g in layout.groups)
     bonded = np.array([True] + [g.bonded for g in layout.groups], dtype=bool)
     return GroupedSegmentation(seg, group, names, bonded)
+
+
+def _refuse_shared_metal(name: str, conds: list[Conductor], placed: list[tuple[str, Conductor]]) -> None:
+    """Refuse a floating conductor that lies along metal of another group (a shared post or wire).
+
+    The shared length would be counted twice and the moment matrix would be
+    singular; which group the metal belongs to is the user's decision.
+    """
+    others = [c for _, c in placed]
+    for c in conds:
+        for j in near_line(c, others):
+            if collinear_overlap(c, others[j]) is None:
+                continue
+            owner, d = placed[j]
+            where = "the grid or bonded metal" if owner == "grid" else f"the floating group '{owner}'"
+            raise InputError(
+                f"{c.kind} '{c.label}' of the floating group '{name}' lies along {d.kind} '{d.label}' of {where}: "
+                "the same metal cannot belong to two groups",
+                fix="A shared post or wire joins them: give fence runs that meet the same Label (one fence), "
+                "put the metal in one group, or move one of them",
+                item=c.source or None,
+            )
 
 
 def _touching(conds: list[Conductor], others: list[Conductor]) -> str:

@@ -86,7 +86,7 @@ def _snap(conductors: list[Conductor], rods: list[Rod], others: list[Conductor],
     return new_c, new_r
 
 
-def _collinear_overlap(c: Conductor, d: Conductor) -> tuple[float, float] | None:
+def collinear_overlap(c: Conductor, d: Conductor) -> tuple[float, float] | None:
     """Parameter interval of ``c`` that lies along ``d`` (collinear within 1 mm), or None."""
     a, b = np.array(c.start, float), np.array(c.end, float)
     p, q = np.array(d.start, float), np.array(d.end, float)
@@ -106,7 +106,7 @@ def _collinear_overlap(c: Conductor, d: Conductor) -> tuple[float, float] | None
     return lo, hi
 
 
-def _near_line(c: Conductor, cand: list[Conductor]) -> np.ndarray:
+def near_line(c: Conductor, cand: list[Conductor]) -> np.ndarray:
     """Indices of candidates whose both ends lie within 1 mm of the line of ``c`` (vectorised filter)."""
     a, b = np.array(c.start, float), np.array(c.end, float)
     length = float(np.linalg.norm(b - a))
@@ -129,11 +129,11 @@ def _remove_overlaps(conductors: list[Conductor], fixed: list[Conductor], notice
         c = out[k]
         hit = False
         cand = out + fixed
-        for j in _near_line(c, cand):
+        for j in near_line(c, cand):
             d = cand[j]
             if j == k:
                 continue
-            ov = _collinear_overlap(c, d)
+            ov = collinear_overlap(c, d)
             if ov is None:
                 continue
             a, b = np.array(c.start, float), np.array(c.end, float)

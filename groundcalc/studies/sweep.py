@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
+from .. import validation
 from ..errors import InputError
 from ..model import Design, GridSpec, Rod
 
@@ -22,8 +23,8 @@ MAX_LAYOUTS = 400
 MIN_SPACING_M = 1.0
 #: Most perimeter rods a sweep adds (a rod every metre round a 250 m square grid).
 MAX_RODS = 1000
-#: Most segments one layout of a sweep may need.
-MAX_SEGMENTS = 30_000
+#: Most segments one layout of a sweep may need (the limit of one design).
+MAX_SEGMENTS = validation.MAX_SEGMENTS
 
 
 @dataclass(frozen=True)
