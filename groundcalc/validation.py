@@ -595,7 +595,12 @@ def _check_size(design: Design, conductors: list[Conductor]) -> None:
     s = design.settings
     pts = np.array([p for c in conductors for p in (c.start[:2], c.end[:2])], dtype=float)
     ext = pts.max(axis=0) - pts.min(axis=0) + 2.0 * s.margin_m
-    spacing = s.raster_spacing_m or 0.25  # the automatic spacing is 0.25 m or more
+    if s.raster_spacing_m:
+        spacing = s.raster_spacing_m
+    else:  # the spacing the analysis will choose
+        from .surface.potential import auto_raster_spacing
+
+        spacing = auto_raster_spacing(float(np.max(pts.max(axis=0) - pts.min(axis=0))), s.segment_length_m)
     points = (math.floor(ext[0] / spacing) + 1) * (math.floor(ext[1] / spacing) + 1)
     if points > MAX_RASTER_POINTS:
         q = "settings.margin_m" if s.margin_m > max(ext) / 4 else "settings.raster_spacing_m"

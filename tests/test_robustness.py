@@ -488,3 +488,20 @@ def test_one_output_failing_leaves_none_behind(tmp_path, capsys, monkeypatch):
     code = main(["run", str(book), "--json", str(out / "r.json"), "--report", str(out / "r.pdf"), "--quiet"])
     assert code == 2 and "simulated" in capsys.readouterr().err
     assert list(out.iterdir()) == []
+
+
+def test_raster_size_limit_uses_the_spacing_the_analysis_will_choose():
+    """A 500 m x 400 m grid with a blank raster spacing: the automatic spacing is 1 m (about 200
+    lines across, common practice), so the raster has about 210,000 points and is accepted; the
+    same grid at a given 0.25 m spacing would need 3.3 million and is refused."""
+    from groundcalc.surface.potential import auto_raster_spacing
+    from groundcalc.validation import MAX_RASTER_POINTS, validate
+
+    grid = [GridSpec("G", 0.0, 0.0, 500.0, 400.0, 11, 9, 0.5, 0.01)]
+    blank = _code_design(grids=grid, settings=Settings(segment_length_m=1.0, raster_spacing_m=None, margin_m=5.0))
+    assert auto_raster_spacing(500.0, 1.0) == 1.0
+    assert (511 * 411) < MAX_RASTER_POINTS
+    validate(blank)
+    fine = _code_design(grids=grid, settings=Settings(segment_length_m=1.0, raster_spacing_m=0.25, margin_m=5.0))
+    with pytest.raises(InputError, match="more than 2,000,000"):
+        validate(fine)
