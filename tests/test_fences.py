@@ -242,3 +242,16 @@ def test_floating_groups_that_cross_are_noted():
     geo = solve_geometry(design)
     notes = geo.segmentation.notices
     assert any(n.code == "floating-groups-touch" and "pipe B" in n.message for n in notes)
+
+
+def test_floating_pipe_along_a_grid_conductor_is_refused():
+    """A floating pipe on the axis of a grid conductor: the same place cannot hold two metals."""
+    from groundcalc.errors import InputError
+    from groundcalc.geometry.metal import segment_groups
+    from groundcalc.model import Conductor
+
+    grid = GridSpec("G", 0, 0, 10, 10, 3, 3, 0.5, 0.01).conductors()
+    pipe = Conductor("pipe", (5.0, -5.0, 0.5), (5.0, 15.0, 0.5), 0.1, source="Conductors row 7")
+    with pytest.raises(InputError, match="lies along conductor 'G-Y2' of the grid") as err:
+        segment_groups(grid, MetalLayout(groups=(MetalGroup("pipe", False, (pipe,)),)), 2.0)
+    assert "Conductors row 7" in str(err.value)

@@ -148,10 +148,12 @@ def test_floating_rod_far_from_a_grid_takes_the_point_source_potential():
 
 
 def test_floating_metal_touching_the_grid_is_reported_and_loose_grid_parts_still_are():
-    # A floating pipe laid across a grid conductor at the same depth is in contact with it.
+    # A floating pipe laid across grid conductors at the same depth is in contact with them.
+    # (x = 2.5 m runs across the conductors along x; at x = 5 m it would lie along one of the
+    # grid's own conductors, which is refused: tests/test_fences.py.)
     grid = GridSpec("G", 0, 0, 10, 10, 3, 3, 0.5, 0.01).conductors()
     loose = Conductor("loose", (30, 0, 0.5), (34, 0, 0.5), 0.01)
-    pipe = Conductor("pipe", (5, -5, 0.5), (5, 15, 0.5), 0.1)
+    pipe = Conductor("pipe", (2.5, -5, 0.5), (2.5, 15, 0.5), 0.1)
     gs = segment_groups(grid + [loose], MetalLayout(groups=(MetalGroup("pipe", False, (pipe,)),)), 2.0)
     codes = {n.code: n.message for n in gs.segmentation.notices}
     assert "floating-touches-grid" in codes and "pipe" in codes["floating-touches-grid"]
