@@ -244,3 +244,19 @@ def test_floating_metal_groups_matrix_free_against_the_dense_schur_complement(na
     assert fast.solution.resistance_ohm == pytest.approx(dense.solution.resistance_ohm, rel=5e-4)
     np.testing.assert_allclose(fast.potential_pu, dense.potential_pu, rtol=1e-3)
     assert np.all(np.abs(fast.net_current_a[1:]) < 1e-6 * fast.net_current_a[0])
+
+
+def test_no_dense_fallback_beyond_memory(monkeypatch):
+    """Rods only (no horizontal segment for the plan grid): the dense path is refused when too large."""
+    from groundcalc.errors import InputError
+    from groundcalc.mom import fastop, solver
+
+    cond = [Conductor(f"r{k}", (3.0 * k, 0.0, 0.5), (3.0 * k, 0.0, 3.5), 0.016, "rod") for k in range(4)]
+    seg = segment_conductors(cond, 1.0).segments
+    greens = build_greens(Soil("uniform", 100.0), seg, 5.0)
+    monkeypatch.setattr(fastop, "FAST_MIN_SIZE", 0)
+    assert solver.solve(seg, greens).fast_operator is None  # dense fallback while it fits
+    monkeypatch.setattr(solver, "DENSE_MAX_SIZE", len(seg) - 1)
+    with pytest.raises(InputError, match="dense matrix of .* segments would need") as err:
+        solver.solve(seg, greens)
+    assert err.value.quantity == "settings.segment_length_m"

@@ -35,7 +35,7 @@ from ..geometry.segments import Segments
 from ..model import Notice
 from ..soil.greens import Greens
 from .assembly import assemble
-from .solver import CG_MIN_SIZE, Solution, conjugate_gradients
+from .solver import CG_MIN_SIZE, Solution, conjugate_gradients, refuse_dense
 
 __all__ = ["GroupSolution", "resistance_matrix", "solve_groups"]
 
@@ -170,6 +170,7 @@ def solve_groups(
     if fast is not None:
         method = "matrix-free plan-grid FFT operator, block-Jacobi conjugate gradients (residual 1e-9), per group"
     else:
+        refuse_dense(n, "the matrix-free operator could not be used for the metal groups")
         x, method = _solve_many(_symmetric(assemble(segments, greens)), rhs)
     x0, xb = x[:, 0], x[:, 1:]
     v = np.ones(ng)

@@ -20,6 +20,7 @@ from functools import cached_property
 import numpy as np
 import scipy.linalg
 
+from ..errors import InputError
 from ..geometry.segments import Segmentation, Segments
 from ..model import Notice
 from ..soil.greens import Greens
@@ -80,6 +81,21 @@ class Solution:
 
 #: Systems at least this large are solved by conjugate gradients first.
 CG_MIN_SIZE = 2500
+#: Largest system assembled as a dense matrix (30,000 segments: 7 GiB of matrix).
+DENSE_MAX_SIZE = 30_000
+
+
+def refuse_dense(n: int, why: str) -> None:
+    """Refuse a dense matrix too large for memory, with what to change."""
+    if n <= DENSE_MAX_SIZE:
+        return
+    raise InputError(
+        f"{why}, and a dense matrix of {n:,} segments would need {8 * n * n / 2**30:,.0f} GiB",
+        quantity="settings.segment_length_m",
+        fix=f"Use a longer segment length so that the design has at most {DENSE_MAX_SIZE:,} segments",
+    )
+
+
 #: Relative residual at which conjugate gradients stop.
 CG_TOLERANCE = 1e-10
 #: Iterations after which conjugate gradients give way to the factorisation.
@@ -181,6 +197,7 @@ def solve(segments: Segments, greens: Greens, method: str = "auto") -> Solution:
             log.info("matrix-free conjugate gradients did not converge; assembling")
             fast = None
     if currents is None:
+        refuse_dense(n, "the matrix-free operator could not be used")
         log.info("assembling %d x %d matrix", n, n)
         z = assemble(segments, greens)
     if currents is None and (method == "cg" or (method == "auto" and n >= CG_MIN_SIZE)):
