@@ -577,8 +577,29 @@ class FastOperator:
         return out
 
 
-def fast_solve(op: Operator, rhs: np.ndarray):
-    """Solve ``Z x = rhs`` matrix-free; ``(fast operator, x, iterations)`` (x None if not converged)."""
-    fast = FastOperator(op)
-    x, it = fast.solve(rhs)
-    return fast, x, it
+def fast_solve(segments, greens, rhs: np.ndarray):
+    """Solve ``Z X = rhs`` matrix-free for one right-hand side or several (columns).
+
+    One operator and one preconditioner serve every column.
+
+    Returns
+    -------
+    (FastOperator, X, iterations) or (None, None, iterations)
+        ``None`` when the soil model offers no plan kernels or an iteration
+        does not converge (logged); ``iterations`` is the largest count.
+    """
+    try:
+        fast = FastOperator(Operator(segments, greens))
+    except FastUnavailable as exc:
+        log.info("matrix-free operator not available (%s); assembling", exc)
+        return None, None, 0
+    cols, most = [], 0
+    for b in np.asarray(rhs, dtype=float).reshape(len(segments), -1).T:
+        x, iterations = fast.solve(b)
+        most = max(most, iterations)
+        if x is None:
+            log.info("matrix-free conjugate gradients did not converge in %d iterations; assembling", iterations)
+            return None, None, most
+        cols.append(x)
+    x = np.column_stack(cols)
+    return fast, (x[:, 0] if np.ndim(rhs) == 1 else x), most

@@ -98,27 +98,15 @@ def _solve_matrix_free(segments: Segments, greens: Greens, rhs: np.ndarray):
     """``(fast operator, X)`` for ``Z X = rhs`` without a matrix from ``FAST_MIN_SIZE`` segments, else ``(None, None)``.
 
     One operator and one preconditioner serve every right-hand side
-    (:mod:`groundcalc.mom.fastop`); any failure to converge returns to the
+    (:func:`groundcalc.mom.fastop.fast_solve`); any failure returns to the
     dense path.
     """
     from . import fastop
-    from .operator import Operator
 
     if len(segments) < fastop.FAST_MIN_SIZE:
         return None, None
-    try:
-        fast = fastop.FastOperator(Operator(segments, greens))
-    except fastop.FastUnavailable as exc:
-        log.info("dense path: %s", exc)
-        return None, None
-    cols = []
-    for k in range(rhs.shape[1]):
-        x, iterations = fast.solve(rhs[:, k])
-        if x is None:
-            log.warning("matrix-free solve did not converge in %d iterations; dense path instead", iterations)
-            return None, None
-        cols.append(x)
-    return fast, np.column_stack(cols)
+    fast, x, _ = fastop.fast_solve(segments, greens, rhs)
+    return fast, x
 
 
 def solve_groups(

@@ -172,7 +172,7 @@ def solve(segments: Segments, greens: Greens, method: str = "auto") -> Solution:
     offers no plan kernels, or the iteration does not converge, the dense path
     is taken.
     """
-    from .fastop import FAST_MIN_SIZE, FastOperator, FastUnavailable
+    from .fastop import FAST_MIN_SIZE, fast_solve
 
     if method not in ("auto", "cholesky", "cg", "fast"):
         raise ValueError(f"unknown linear solver {method!r}; valid: auto, fast, cholesky, cg")
@@ -182,20 +182,12 @@ def solve(segments: Segments, greens: Greens, method: str = "auto") -> Solution:
     currents = None
     fast = None
     if method == "fast" or (method == "auto" and n >= FAST_MIN_SIZE):
-        try:
-            fast = FastOperator(Operator(segments, greens))
-            currents, iterations = fast.solve(rhs)
-        except FastUnavailable as exc:
-            log.info("matrix-free operator not available (%s); assembling", exc)
-            fast = None
+        fast, currents, iterations = fast_solve(segments, greens, rhs)
         if currents is not None:
             solver = (
                 f"matrix-free plan-grid FFT operator, block-Jacobi conjugate gradients "
                 f"({iterations} iterations, residual 1e-9)"
             )
-        elif fast is not None:
-            log.info("matrix-free conjugate gradients did not converge; assembling")
-            fast = None
     if currents is None:
         refuse_dense(n, "the matrix-free operator could not be used")
         log.info("assembling %d x %d matrix", n, n)
